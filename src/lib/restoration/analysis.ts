@@ -1,0 +1,558 @@
+/**
+ * Measures how one print has aged, from a reduced copy of its scan, and proposes a correction.
+ *
+ * The model is the one in correction.ts: per channel D' = k·D + s. Two facts of the trade make
+ * k and s measurable without knowing the original scene:
+ *  - the paper base (a white border, or failing that the cleanest highlight) was close to neutral
+ *    when new, so its colour now is the stain s;
+ *  - each dye layer reached a similar maximum density when new (about 2.0-2.5 on glossy paper,
+ *    from memory), and the deepest shadows of a photograph are near neutral (common practice),
+ *    so the density range left above the paper base in each channel, compared with the channel
+ *    that kept most, is the fraction of that dye left: k.
+ * Only relative fading is measured: the best-kept dye is taken as unfaded. That keeps an
+ * unfaded print unfaded, at the price of leaving an even, all-dye loss of contrast alone.
+ */
+import { densityFromReflectance, reflectanceFromDensity, srgbDecode, srgbEncode, srgbToLab, deltaE2000, type Triplet } from './colour';
+import { CORRECTION_VERSION, type Correction } from './correction';
+
+/** Pixels handed to the analysis: interleaved, sRGB-encoded, already oriented and reduced. */
+export interface ReducedPixels {
+  data: Uint8Array | Uint8ClampedArray | Uint16Array;
+  width: number;
+  height: number;
+  /** 3 (RGB) or 4 (RGBA, alpha ignored). */
+  channels: number;
+  depth: 8 | 16;
+}
+
+export type PaperBaseMethod = 'border' | 'highlight' | 'pooled' | 'not_found';
+export type FadeGrade = 'none' | 'slight' | 'moderate' | 'severe';
+
+/** What one dye layer has kept and what stain its channel gained. */
+export interface DyeEstimate {
+  /** Share of the dye's density left, 0-100 %. */
+  remainingPercent: number;
+  /** Density added to this channel by stain (D = -log10 R). */
+  stainDensity: number;
+  confidence: number;
+}
+
+/** Everything the engine measured on one print, and the correction it proposes. */
+export interface Analysis {
+  paperBase: {
+    /** Encoded sRGB 0..1 as scanned. */
+    srgb: Triplet;
+    /** CIELAB, D65 white of the sRGB matrix. */
+    lab: Triplet;
+    /** CIEDE2000 between the paper base and a neutral of the same lightness. */
+    deltaE00FromWhite: number;
+    method: PaperBaseMethod;
+    confidence: number;
+  };
+  dyes: { cyan: DyeEstimate; magenta: DyeEstimate; yellow: DyeEstimate };
+  fadeGrade: FadeGrade;
+  /** Largest dye loss measured, 0..1 (ISO 18909 expresses fading as this loss). */
+  dyeLoss: number;
+  /** Largest stain density measured. */
+  stain: number;
+  /** The print looks like a black-and-white print (only its base needs neutralising). */
+  monochrome: boolean;
+  /** Past the end points: the negative, if the family has it, holds more than this print. */
+  rescanAdvised: boolean;
+  proposed: Correction;
+  /** 0..1: how far the estimate can be trusted on this print alone. */
+  confidence: number;
+  /** Set when {@link poolAnalyses} replaced or blended this print's estimate with its siblings'. */
+  pooled?: { siblings: number; ownWeight: number };
+  /** Where the border was found, as fractions of width/height cut from each side (0 = none). */
+  border: { top: number; right: number; bottom: number; left: number };
+}
+
+/**
+ * Grade thresholds, in one place.
+ * - `none`: below what the engine can tell from scan noise and scene content (our own floor); a
+ *   print under it is left exactly as it is.
+ * - `slight`: dye losses under about 15-20 % are rarely noticed (a film maker's published
+ *   print-life note, CHECKS.md), so 15 %.
+ * - `moderate` -> `severe`: a 30 % loss from D = 1.0 is the illustrative end point of ISO 18909
+ *   testing; the stain end point is about 0.10-0.15 rise in minimum density (from memory).
+ * The loss is comparable with ISO 18909's: under D' = k·D + s the fractional loss 1 - k is the
+ * same at every starting density, D = 1.0 included.
+ */
+export const FADE_GRADE_THRESHOLDS = {
+  none: { dyeLoss: 0.04, stain: 0.02 },
+  slight: { dyeLoss: 0.15, stain: 0.1 },
+  moderate: { dyeLoss: 0.3, stain: 0.15 },
+} as const;
+
+/** Grades a print from its largest dye loss (0..1) and largest stain density. */
+export function gradeFade(dyeLoss: number, stain: number): FadeGrade {
+  const t = FADE_GRADE_THRESHOLDS;
+  if (dyeLoss < t.none.dyeLoss && stain < t.none.stain) return 'none';
+  if (dyeLoss < t.slight.dyeLoss && stain < t.slight.stain) return 'slight';
+  if (dyeLoss < t.moderate.dyeLoss && stain <= t.moderate.stain) return 'moderate';
+  return 'severe';
+}
+
+/** Share of the highlight-ranked pixels taken as the paper base when there is no border. */
+const HIGHLIGHT_SHARE = 0.005;
+/** Percentiles of density that stand for each channel's deepest shadows. */
+const SHADOW_PERCENTILES = [0.98, 0.995];
+/** Below this density range above the paper base, a scene has too few shadows to judge fading. */
+const FULL_RANGE = 1.2;
+/** Limits on what the engine will propose; beyond them it is guessing. */
+const MIN_RETENTION = 0.3;
+const MAX_STAIN = 0.6;
+/** Confidence under which {@link poolAnalyses} blends a print with its siblings. */
+export const POOL_CONFIDENCE = 0.5;
+
+const densityOf8 = (() => {
+  const t = new Float64Array(256);
+  for (let i = 0; i < 256; i++) t[i] = densityFromReflectance(srgbDecode(i / 255));
+  return t;
+})();
+
+interface Rect {
+  x0: number;
+  y0: number;
+  x1: number;
+  y1: number;
+}
+
+/** 8-bit view of the pixels, whatever their depth. */
+function to8(p: ReducedPixels): { v: Uint8Array; ch: number } {
+  if (p.depth === 8 && p.data instanceof Uint8Array) return { v: p.data, ch: p.channels };
+  const v = new Uint8Array(p.data.length);
+  if (p.depth === 16) for (let i = 0; i < v.length; i++) v[i] = p.data[i] >> 8;
+  else v.set(p.data);
+  return { v, ch: p.channels };
+}
+
+function histograms(v: Uint8Array, ch: number, width: number, r: Rect): { h: Uint32Array[]; n: number } {
+  const h = [new Uint32Array(256), new Uint32Array(256), new Uint32Array(256)];
+  let n = 0;
+  for (let y = r.y0; y < r.y1; y++) {
+    let i = (y * width + r.x0) * ch;
+    for (let x = r.x0; x < r.x1; x++, i += ch) {
+      h[0][v[i]]++;
+      h[1][v[i + 1]]++;
+      h[2][v[i + 2]]++;
+      n++;
+    }
+  }
+  return { h, n };
+}
+
+/** Code value at fraction p of a histogram (0 = darkest code). */
+function percentileCode(h: Uint32Array, n: number, p: number): number {
+  const target = p * (n - 1);
+  let acc = 0;
+  for (let c = 0; c < 256; c++) {
+    acc += h[c];
+    if (acc > target) return c;
+  }
+  return 255;
+}
+
+function clamp(x: number, lo: number, hi: number): number {
+  return x < lo ? lo : x > hi ? hi : x;
+}
+
+interface BorderFind {
+  paper: Triplet; // 8-bit codes
+  rect: Rect;
+  uniformity: number;
+  cut: { top: number; right: number; bottom: number; left: number };
+}
+
+/**
+ * Looks for a uniform bright frame on all four sides. The very edge is skipped: scanners often
+ * catch a sliver of their own bed there.
+ */
+function findBorder(v: Uint8Array, ch: number, w: number, h: number): BorderFind | null {
+  const skip = Math.max(1, Math.round(0.004 * Math.min(w, h)));
+  const depth = Math.max(2, Math.round(0.02 * Math.min(w, h)));
+  const sides: Rect[] = [
+    { x0: skip, y0: skip, x1: w - skip, y1: skip + depth },
+    { x0: w - skip - depth, y0: skip, x1: w - skip, y1: h - skip },
+    { x0: skip, y0: h - skip - depth, x1: w - skip, y1: h - skip },
+    { x0: skip, y0: skip, x1: skip + depth, y1: h - skip },
+  ];
+  const medians: Triplet[] = [];
+  let uniformity = 1;
+  for (const r of sides) {
+    if (r.x1 <= r.x0 || r.y1 <= r.y0) return null;
+    const { h: hist, n } = histograms(v, ch, w, r);
+    const med = [0, 1, 2].map((c) => percentileCode(hist[c], n, 0.5)) as Triplet;
+    let within = 0;
+    for (let c = 0; c < 3; c++) {
+      let s = 0;
+      for (let k = Math.max(0, med[c] - 6); k <= Math.min(255, med[c] + 6); k++) s += hist[c][k];
+      within += s / n / 3;
+    }
+    uniformity = Math.min(uniformity, within);
+    medians.push(med);
+  }
+  if (uniformity < 0.9) return null;
+  for (let c = 0; c < 3; c++) {
+    const vals = medians.map((m) => m[c]);
+    if (Math.max(...vals) - Math.min(...vals) > 10) return null;
+  }
+  const paper = [0, 1, 2].map((c) => medians.reduce((a, m) => a + m[c], 0) / 4) as Triplet;
+  if (Math.max(...paper) < 170) return null;
+
+  const isPaper = (i: number) =>
+    Math.abs(v[i] - paper[0]) <= 12 && Math.abs(v[i + 1] - paper[1]) <= 12 && Math.abs(v[i + 2] - paper[2]) <= 12;
+  const rowIsPaper = (y: number) => {
+    let k = 0;
+    for (let x = 0; x < w; x++) if (isPaper((y * w + x) * ch)) k++;
+    return k >= 0.9 * w;
+  };
+  const colIsPaper = (x: number) => {
+    let k = 0;
+    for (let y = 0; y < h; y++) if (isPaper((y * w + x) * ch)) k++;
+    return k >= 0.9 * h;
+  };
+  const limitY = Math.floor(h * 0.3);
+  const limitX = Math.floor(w * 0.3);
+  let top = 0;
+  while (top < limitY && rowIsPaper(top)) top++;
+  let bottom = 0;
+  while (bottom < limitY && rowIsPaper(h - 1 - bottom)) bottom++;
+  let left = 0;
+  while (left < limitX && colIsPaper(left)) left++;
+  let right = 0;
+  while (right < limitX && colIsPaper(w - 1 - right)) right++;
+  // a margin past the found edge keeps the print's own edge (often a soft line) out of the statistics
+  const m = Math.max(1, Math.round(0.01 * Math.min(w, h)));
+  const rect = { x0: left + m, y0: top + m, x1: w - right - m, y1: h - bottom - m };
+  if (rect.x1 - rect.x0 < 8 || rect.y1 - rect.y0 < 8) return null;
+  return { paper, rect, uniformity, cut: { top: top / h, right: right / w, bottom: bottom / h, left: left / w } };
+}
+
+/** Median colour of the cleanest highlights: the pixels of lowest total density. */
+function findHighlight(v: Uint8Array, ch: number, w: number, r: Rect): { paper: Triplet; count: number; spread: number } {
+  const bins = 1024;
+  const scale = bins / 9; // summed density of three channels is at most 9
+  const hist = new Uint32Array(bins);
+  let n = 0;
+  for (let y = r.y0; y < r.y1; y++) {
+    let i = (y * w + r.x0) * ch;
+    for (let x = r.x0; x < r.x1; x++, i += ch) {
+      hist[Math.min(bins - 1, Math.floor((densityOf8[v[i]] + densityOf8[v[i + 1]] + densityOf8[v[i + 2]]) * scale))]++;
+      n++;
+    }
+  }
+  const want = Math.max(1, Math.round(n * HIGHLIGHT_SHARE));
+  let acc = 0;
+  let cut = 0;
+  while (cut < bins - 1 && acc + hist[cut] < want) acc += hist[cut++];
+  const hs = [new Uint32Array(256), new Uint32Array(256), new Uint32Array(256)];
+  let count = 0;
+  for (let y = r.y0; y < r.y1; y++) {
+    let i = (y * w + r.x0) * ch;
+    for (let x = r.x0; x < r.x1; x++, i += ch) {
+      const b = Math.floor((densityOf8[v[i]] + densityOf8[v[i + 1]] + densityOf8[v[i + 2]]) * scale);
+      if (b <= cut) {
+        hs[0][v[i]]++;
+        hs[1][v[i + 1]]++;
+        hs[2][v[i + 2]]++;
+        count++;
+      }
+    }
+  }
+  const paper = [0, 1, 2].map((c) => percentileCode(hs[c], count, 0.5)) as Triplet;
+  const spread = Math.max(
+    ...[0, 1, 2].map((c) => densityOf8[percentileCode(hs[c], count, 0.1)] - densityOf8[percentileCode(hs[c], count, 0.9)]),
+  );
+  return { paper, count, spread };
+}
+
+function paperReport(codes: Triplet, method: PaperBaseMethod, confidence: number): Analysis['paperBase'] {
+  const srgb = codes.map((c) => c / 255) as Triplet;
+  const lab = srgbToLab(srgb);
+  return { srgb, lab, deltaE00FromWhite: deltaE2000(lab, [lab[0], 0, 0]), method, confidence };
+}
+
+/** Builds the correction that undoes the given retention k and stain s per channel. */
+export function correctionFromEstimate(retention: Triplet, stain: Triplet, paperFloorDensity = 0): Correction {
+  const whitePoint = stain.map((s) => round(srgbEncode(reflectanceFromDensity(paperFloorDensity + s)), 6)) as Triplet;
+  const gain = (k: number) => round(1 / k, 5);
+  return {
+    version: CORRECTION_VERSION,
+    whitePoint,
+    curves: { red: { densityGain: gain(retention[0]) }, green: { densityGain: gain(retention[1]) }, blue: { densityGain: gain(retention[2]) } },
+    strength: 1,
+  };
+}
+
+function round(x: number, digits: number): number {
+  const f = Math.pow(10, digits);
+  return Math.round(x * f) / f;
+}
+
+interface Estimate {
+  retention: Triplet;
+  stain: Triplet;
+  paperFloor: number;
+}
+
+/** Applies the "do no harm" floor, grades, and fills in the parts of an Analysis that follow from an estimate. */
+function finish(
+  est: Estimate,
+  paperBase: Analysis['paperBase'],
+  dyeConfidence: Triplet,
+  confidence: number,
+  monochrome: boolean,
+  border: Analysis['border'],
+): Analysis {
+  const t = FADE_GRADE_THRESHOLDS.none;
+  let retention = est.retention.map((k) => clamp(k, MIN_RETENTION, 1)) as Triplet;
+  let stain = est.stain.map((s) => clamp(s, 0, MAX_STAIN)) as Triplet;
+  let dyeLoss = 1 - Math.min(...retention);
+  let maxStain = Math.max(...stain);
+  // Do no harm: a change the engine cannot tell from noise is not made at all.
+  if (dyeLoss < t.dyeLoss) {
+    retention = [1, 1, 1];
+    dyeLoss = 0;
+  }
+  if (maxStain < t.stain) {
+    stain = [0, 0, 0];
+    maxStain = 0;
+  }
+  const fadeGrade = gradeFade(dyeLoss, maxStain);
+  const dye = (i: number): DyeEstimate => ({
+    remainingPercent: round(retention[i] * 100, 2),
+    stainDensity: round(stain[i], 4),
+    confidence: round(dyeConfidence[i], 3),
+  });
+  return {
+    paperBase,
+    dyes: { cyan: dye(0), magenta: dye(1), yellow: dye(2) },
+    fadeGrade,
+    dyeLoss: round(dyeLoss, 4),
+    stain: round(maxStain, 4),
+    monochrome,
+    rescanAdvised: fadeGrade === 'severe' && dyeLoss >= FADE_GRADE_THRESHOLDS.moderate.dyeLoss,
+    proposed: correctionFromEstimate(retention, stain, est.paperFloor),
+    confidence: round(confidence, 3),
+    border,
+  };
+}
+
+/** Tolerances, per pass, on how far from neutral a pixel may be after correction to count as a neutral. */
+const NEUTRAL_TOLERANCES = [0.25, 0.12, 0.06, 0.04];
+/** Neutrals lighter than this above the paper base carry too little dye to measure a ratio on. */
+const MIN_NEUTRAL_DENSITY = 0.15;
+
+/**
+ * Refines dye retention on the pixels that come out near neutral: in those the three dyes were
+ * in balance when new (common practice: greys and blacks of a scene are neutral), so the ratio of
+ * their densities now is the ratio of retentions. Each pass tightens the tolerance around the
+ * previous estimate; a scene with too few neutrals keeps the shadow estimate.
+ */
+function fitOnNeutrals(
+  v: Uint8Array,
+  ch: number,
+  w: number,
+  r: Rect,
+  paperD: Triplet,
+  start: Triplet,
+): { retention: Triplet; share: number; depth: number } | null {
+  const step = Math.max(1, Math.floor(Math.sqrt(((r.x1 - r.x0) * (r.y1 - r.y0)) / 120000)));
+  const dr: number[] = [];
+  const dg: number[] = [];
+  const db: number[] = [];
+  let total = 0;
+  for (let y = r.y0; y < r.y1; y += step) {
+    for (let x = r.x0; x < r.x1; x += step) {
+      const i = (y * w + x) * ch;
+      total++;
+      const a = densityOf8[v[i]] - paperD[0];
+      const b = densityOf8[v[i + 1]] - paperD[1];
+      const c = densityOf8[v[i + 2]] - paperD[2];
+      // 8-bit codes below 3 are clipped shadows: their density is unknown
+      if (v[i] < 3 || v[i + 1] < 3 || v[i + 2] < 3) continue;
+      if (Math.min(a, b, c) < MIN_NEUTRAL_DENSITY * 0.5) continue;
+      dr.push(a);
+      dg.push(b);
+      db.push(c);
+    }
+  }
+  let k: Triplet = [...start];
+  let last: { retention: Triplet; share: number; depth: number } | null = null;
+  for (const tol of NEUTRAL_TOLERANCES) {
+    const rg: number[] = [];
+    const bg: number[] = [];
+    const wt: number[] = [];
+    let depth = 0;
+    for (let j = 0; j < dg.length; j++) {
+      const R = dr[j] / k[0];
+      const G = dg[j] / k[1];
+      const B = db[j] / k[2];
+      if (G < MIN_NEUTRAL_DENSITY) continue;
+      if (Math.abs(R / G - 1) > tol || Math.abs(B / G - 1) > tol) continue;
+      rg.push(dr[j] / dg[j]);
+      bg.push(db[j] / dg[j]);
+      wt.push(G);
+      if (G > depth) depth = G;
+    }
+    if (rg.length < 30) break;
+    const kr = weightedMedian(rg, wt);
+    const kb = weightedMedian(bg, wt);
+    const top = Math.max(kr, 1, kb);
+    k = [kr / top, 1 / top, kb / top];
+    last = { retention: k, share: rg.length / Math.max(1, total), depth };
+  }
+  return last;
+}
+
+function sceneVariety(v: Uint8Array, ch: number, w: number, inner: Rect, paperD: Triplet, retention: Triplet): { variety: number; neutralShare: number } {
+  const gains = retention.map((k) => 1 / Math.max(k, MIN_RETENTION));
+  let neutrals = 0;
+  let sampled = 0;
+  let sumA = 0;
+  let sumB = 0;
+  let sumAA = 0;
+  let sumBB = 0;
+  const step = Math.max(1, Math.floor(Math.sqrt(((inner.x1 - inner.x0) * (inner.y1 - inner.y0)) / 40000)));
+  for (let y = inner.y0; y < inner.y1; y += step) {
+    for (let x = inner.x0; x < inner.x1; x += step) {
+      const i = (y * w + x) * ch;
+      const dr = (densityOf8[v[i]] - paperD[0]) * gains[0];
+      const dg = (densityOf8[v[i + 1]] - paperD[1]) * gains[1];
+      const db = (densityOf8[v[i + 2]] - paperD[2]) * gains[2];
+      const a = dr - dg;
+      const b = db - dg;
+      if (Math.abs(a) < 0.04 + 0.03 * dg && Math.abs(b) < 0.04 + 0.03 * dg) neutrals++;
+      sumA += a;
+      sumB += b;
+      sumAA += a * a;
+      sumBB += b * b;
+      sampled++;
+    }
+  }
+  const n = Math.max(1, sampled);
+  const variety = Math.sqrt(Math.max(0, sumAA / n - (sumA / n) ** 2) + Math.max(0, sumBB / n - (sumB / n) ** 2));
+  return { variety, neutralShare: neutrals / n };
+}
+
+/** Measures paper base, dye retention, stain and grade of one print from a reduced copy of its scan. */
+export function analysePixels(reduced: ReducedPixels): Analysis {
+  const { width: w, height: h } = reduced;
+  if (reduced.channels < 3) throw new RangeError('analysePixels needs RGB pixels (expand greyscale first)');
+  if (w < 1 || h < 1 || reduced.data.length < w * h * reduced.channels) throw new RangeError('pixel buffer smaller than width x height');
+  const { v, ch } = to8(reduced);
+
+  const border = w >= 32 && h >= 32 ? findBorder(v, ch, w, h) : null;
+  const inner: Rect = border?.rect ?? { x0: 0, y0: 0, x1: w, y1: h };
+
+  let paperCodes: Triplet;
+  let method: PaperBaseMethod;
+  let paperConfidence: number;
+  if (border) {
+    paperCodes = border.paper;
+    method = 'border';
+    paperConfidence = clamp(0.6 + 0.4 * (border.uniformity - 0.9) / 0.1, 0, 1);
+  } else {
+    const hl = findHighlight(v, ch, w, inner);
+    paperCodes = hl.paper;
+    method = 'highlight';
+    const bright = Math.min(...paperCodes.map((c) => densityOf8[Math.round(c)]));
+    // a highlight that is dark, scattered or few in number is a poor stand-in for paper
+    paperConfidence = 0.6 * clamp(1 - hl.spread / 0.15, 0, 1) * clamp((0.35 - bright) / 0.25, 0, 1) * clamp(hl.count / 50, 0, 1);
+  }
+  const paperD = paperCodes.map((c) => densityFromReflectance(srgbDecode(c / 255))) as Triplet;
+  const paperFloor = Math.min(...paperD);
+  let stain = paperD.map((d) => d - paperFloor) as Triplet;
+  // Stain is a yellowing: it raises blue density most and red least. A highlight that is bluish or
+  // reddish instead is scene content (sky, a lamp), not paper: keep it and claim no stain.
+  if (method === 'highlight' && (stain[2] < Math.max(stain[0], stain[1]) - 0.01 || stain[0] > stain[1] + 0.02)) {
+    stain = [0, 0, 0];
+    paperConfidence = Math.min(paperConfidence, 0.15);
+  }
+  if (paperConfidence < 0.1) method = method === 'border' ? method : 'not_found';
+
+  const { h: hist, n } = histograms(v, ch, w, inner);
+  const ranges: Triplet[] = SHADOW_PERCENTILES.map(
+    (p) => [0, 1, 2].map((c) => Math.max(densityOf8[percentileCode(hist[c], n, 1 - p)] - paperD[c], 1e-3)) as Triplet,
+  );
+  const shadowRetentions = ranges.map((r) => {
+    const top = Math.max(...r);
+    return r.map((x) => x / top) as Triplet;
+  });
+  const firstGuess = [0, 1, 2].map((c) => shadowRetentions.reduce((a, r) => a + r[c], 0) / shadowRetentions.length) as Triplet;
+  const fullness = clamp(Math.max(...ranges[ranges.length - 1]) / FULL_RANGE, 0, 1);
+
+  const fit = fitOnNeutrals(v, ch, w, inner, paperD, firstGuess);
+  const retention = fit?.retention ?? firstGuess;
+  // trust grows with the share of near-neutral pixels and with how deep they reach
+  const neutralTrust = fit ? clamp(fit.share / 0.02, 0, 1) * clamp(fit.depth / 1.0, 0, 1) : 0;
+  const dyeConfidence = [0, 1, 2].map((c) => {
+    const fallback = fullness * clamp(1 - Math.abs(shadowRetentions[0][c] - shadowRetentions[1][c]) / 0.1, 0, 1) * 0.5;
+    return clamp(Math.max(neutralTrust * (0.6 + 0.4 * fullness), fallback), 0, 1);
+  }) as Triplet;
+
+  // colour variety: a scene of mostly one colour says little about the dyes
+  const { variety, neutralShare } = sceneVariety(v, ch, w, inner, paperD, retention);
+  const monochrome = neutralShare > 0.97;
+  const sceneFactor = monochrome ? 1 : clamp(neutralShare / 0.05, 0, 1) * clamp(variety / 0.1, 0, 1);
+  const meanDye = (dyeConfidence[0] + dyeConfidence[1] + dyeConfidence[2]) / 3;
+  const confidence = (0.4 * paperConfidence + 0.6 * meanDye) * (0.5 + 0.5 * sceneFactor);
+
+  return finish(
+    { retention, stain, paperFloor },
+    paperReport(paperCodes, method, paperConfidence),
+    dyeConfidence,
+    confidence,
+    monochrome,
+    border?.cut ?? { top: 0, right: 0, bottom: 0, left: 0 },
+  );
+}
+
+function weightedMedian(values: number[], weights: number[]): number {
+  const idx = values.map((_, i) => i).sort((a, b) => values[a] - values[b]);
+  const total = weights.reduce((a, b) => a + b, 0);
+  let acc = 0;
+  for (const i of idx) {
+    acc += weights[i];
+    if (acc >= total / 2) return values[i];
+  }
+  return values[idx[idx.length - 1]];
+}
+
+/**
+ * Batch-aware estimates: prints of one pack or drawer usually share paper and ageing. Every print
+ * whose own confidence is under `threshold` is blended toward the confidence-weighted median of
+ * its siblings, in proportion to how little it can be trusted alone. Confident prints are returned
+ * unchanged. The input is not modified.
+ */
+export function poolAnalyses(analyses: Analysis[], threshold = POOL_CONFIDENCE): Analysis[] {
+  if (analyses.length < 2) return analyses.slice();
+  const trusted = analyses.filter((a) => a.confidence >= threshold);
+  const donors = trusted.length > 0 ? trusted : analyses;
+  const weights = donors.map((a) => Math.max(a.confidence, 1e-3));
+  const dyeKeys = ['cyan', 'magenta', 'yellow'] as const;
+  const refRetention = dyeKeys.map((k) => weightedMedian(donors.map((a) => a.dyes[k].remainingPercent / 100), weights)) as Triplet;
+  const refStain = dyeKeys.map((k) => weightedMedian(donors.map((a) => a.dyes[k].stainDensity), weights)) as Triplet;
+  return analyses.map((a) => {
+    if (a.confidence >= threshold || (trusted.length === 0 && donors.length < 2)) return a;
+    const own = clamp(a.confidence / threshold, 0, 1);
+    const siblings = trusted.length > 0 ? trusted.length : donors.length - 1;
+    const retention = dyeKeys.map((k, i) => own * (a.dyes[k].remainingPercent / 100) + (1 - own) * refRetention[i]) as Triplet;
+    const stain = dyeKeys.map((k, i) => own * a.dyes[k].stainDensity + (1 - own) * refStain[i]) as Triplet;
+    const floor = Math.min(...a.paperBase.srgb.map((c) => densityFromReflectance(srgbDecode(c))));
+    const dyeConf = dyeKeys.map((k) => Math.max(a.dyes[k].confidence, threshold * (1 - own))) as Triplet;
+    const paperBase = a.paperBase.method === 'border' ? a.paperBase : { ...a.paperBase, method: 'pooled' as const };
+    const next = finish(
+      { retention, stain, paperFloor: floor },
+      paperBase,
+      dyeConf,
+      Math.max(a.confidence, threshold * (1 - own) + a.confidence * own),
+      a.monochrome,
+      a.border,
+    );
+    next.pooled = { siblings, ownWeight: round(own, 3) };
+    return next;
+  });
+}

@@ -1,0 +1,184 @@
+/**
+ * The correction: what the engine proposes for one print and an operator may later change.
+ * Rendering is a pure function of (original pixels, correction), so every result can be re-made.
+ *
+ * Model (TRADE.md): ageing acts on density per channel, D' = k·D + s. Undoing it is
+ *   D = (D' - s) / k
+ * which in linear light is a division by the paper base (the white point, 10^-s) followed by a
+ * power of 1/k. Because it is separable per channel, a 256- or 65536-entry table per channel
+ * renders a full-resolution scan cheaply, on the server and in the browser alike.
+ */
+import { z } from 'zod';
+import { srgbDecode, srgbEncode, type Triplet } from './colour';
+
+/** Current version of the correction format; bump on any change of meaning. */
+export const CORRECTION_VERSION = 1 as const;
+
+const unit = z.number().finite().min(0).max(1);
+const triplet = z.tuple([unit, unit, unit]);
+
+/** Density gain 1/k: how much the surviving dye density is multiplied by to restore it. */
+const channelCurve = z
+  .object({
+    /** Multiplier on density above the paper base (1 = unchanged, 1.25 restores a dye left at 80 %). */
+    densityGain: z.number().finite().min(0.25).max(4),
+  })
+  .strict();
+
+/** zod schema of {@link Correction}; the web API validates operator edits with it. */
+export const correctionSchema = z
+  .object({
+    version: z.literal(CORRECTION_VERSION),
+    /** Encoded sRGB (0..1) of the paper base or stain as scanned. */
+    whitePoint: triplet,
+    curves: z.object({ red: channelCurve, green: channelCurve, blue: channelCurve }).strict(),
+    /** Encoded sRGB (0..1) of the scan's floor (flare), mapped to black; absent = none. */
+    blackPoint: triplet.optional(),
+    /** 0 = leave the scan as it is, 1 = full correction; parameters blend toward identity. */
+    strength: unit,
+  })
+  .strict();
+
+/** A versioned, JSON-serialisable correction for one print. */
+export type Correction = z.infer<typeof correctionSchema>;
+
+export type ChannelName = 'red' | 'green' | 'blue';
+export const CHANNELS: readonly ChannelName[] = ['red', 'green', 'blue'];
+
+/** The correction that changes nothing. */
+export function identityCorrection(): Correction {
+  return {
+    version: CORRECTION_VERSION,
+    whitePoint: [1, 1, 1],
+    curves: { red: { densityGain: 1 }, green: { densityGain: 1 }, blue: { densityGain: 1 } },
+    strength: 1,
+  };
+}
+
+/** True when rendering `c` would leave every pixel as it is. */
+export function isIdentity(c: Correction): boolean {
+  if (c.strength === 0) return true;
+  const w = c.whitePoint;
+  const neutralWhite = w[0] === w[1] && w[1] === w[2];
+  const flatCurves = CHANNELS.every((ch) => c.curves[ch].densityGain === 1);
+  const noBlack = !c.blackPoint || c.blackPoint.every((v) => v === 0);
+  return neutralWhite && flatCurves && noBlack;
+}
+
+/** The per-channel parameters a correction resolves to after strength is applied. */
+export interface EffectiveChannel {
+  /** Linear reflectance of the paper base in this channel, raised to the strength. */
+  divisor: number;
+  /** Power applied in linear light (= density gain). */
+  gain: number;
+  /** Linear reflectance the paper base is mapped back to (its brightest channel), raised to the strength. */
+  paper: number;
+  /** Linear floor removed before the white point. */
+  floor: number;
+}
+
+/**
+ * Resolves strength and white point into per-channel parameters. In density terms, at full
+ * strength: D = gain·(D' - D'paper) + Dpaper,min. Density above the paper base is restored per
+ * channel, and the paper base itself comes out neutral at the lightness of its brightest channel:
+ * the stain is removed without brightening the print, and a print on clean paper keeps its tone.
+ */
+export function effectiveChannels(c: Correction): Record<ChannelName, EffectiveChannel> {
+  const t = c.strength;
+  const lin = c.whitePoint.map((v) => Math.max(srgbDecode(v), 1e-4)) as Triplet;
+  const top = Math.max(...lin);
+  const out = {} as Record<ChannelName, EffectiveChannel>;
+  CHANNELS.forEach((ch, i) => {
+    const floor = c.blackPoint ? srgbDecode(c.blackPoint[i]) * t : 0;
+    out[ch] = {
+      divisor: Math.pow(lin[i], t),
+      gain: 1 + t * (c.curves[ch].densityGain - 1),
+      paper: Math.pow(top, t),
+      floor: Math.min(floor, 0.5),
+    };
+  });
+  return out;
+}
+
+/** One lookup table per channel, from input code value to output code value. */
+export interface ChannelLuts {
+  inDepth: 8 | 16;
+  outDepth: 8 | 16;
+  red: Uint8Array | Uint16Array;
+  green: Uint8Array | Uint16Array;
+  blue: Uint8Array | Uint16Array;
+}
+
+/** Corrects one linear-light value of one channel. */
+export function correctLinear(x: number, p: EffectiveChannel): number {
+  let v = p.floor > 0 ? (x - p.floor) / (1 - p.floor) : x;
+  if (v <= 0) return 0;
+  v = Math.pow(v / p.divisor, p.gain) * p.paper;
+  return v >= 1 ? 1 : v;
+}
+
+/**
+ * Builds the per-channel tables for a correction.
+ * @param depth bits per channel of the pixels the tables will be applied to
+ * @param outDepth bits per channel wanted out (a 16-bit scan may render straight to 8-bit)
+ */
+export function buildChannelLuts(c: Correction, depth: 8 | 16, outDepth: 8 | 16 = depth): ChannelLuts {
+  const params = effectiveChannels(c);
+  const inMax = depth === 8 ? 255 : 65535;
+  const outMax = outDepth === 8 ? 255 : 65535;
+  const make = (p: EffectiveChannel) => {
+    const lut = outDepth === 8 ? new Uint8Array(inMax + 1) : new Uint16Array(inMax + 1);
+    for (let i = 0; i <= inMax; i++) {
+      const y = srgbEncode(correctLinear(srgbDecode(i / inMax), p));
+      lut[i] = Math.round(Math.min(Math.max(y, 0), 1) * outMax);
+    }
+    return lut;
+  };
+  return { inDepth: depth, outDepth, red: make(params.red), green: make(params.green), blue: make(params.blue) };
+}
+
+/** Thrown when pixels and tables do not fit together. */
+export class CorrectionInputError extends Error {
+  readonly code = 'invalid_pixels';
+  constructor(message: string) {
+    super(message);
+    this.name = 'CorrectionInputError';
+  }
+}
+
+/**
+ * Applies the tables to interleaved RGB or RGBA pixels (alpha passes through).
+ * @param out destination; pass `data` itself to correct in place. Allocated when omitted.
+ */
+export function applyCorrection<T extends Uint8Array | Uint8ClampedArray | Uint16Array>(
+  data: T,
+  channels: number,
+  luts: ChannelLuts,
+  out?: Uint8Array | Uint8ClampedArray | Uint16Array,
+): Uint8Array | Uint8ClampedArray | Uint16Array {
+  if (channels !== 3 && channels !== 4) {
+    throw new CorrectionInputError(`expected 3 or 4 interleaved channels, got ${channels}`);
+  }
+  if (data.length % channels !== 0) throw new CorrectionInputError('pixel buffer length is not a whole number of pixels');
+  const dest = out ?? (luts.outDepth === 8 ? new Uint8Array(data.length) : new Uint16Array(data.length));
+  if (dest.length < data.length) throw new CorrectionInputError('destination buffer is too small');
+  const { red, green, blue } = luts;
+  const n = data.length;
+  if (channels === 3) {
+    for (let i = 0; i < n; i += 3) {
+      dest[i] = red[data[i]];
+      dest[i + 1] = green[data[i + 1]];
+      dest[i + 2] = blue[data[i + 2]];
+    }
+  } else {
+    const alphaShift = luts.inDepth === luts.outDepth ? 0 : luts.inDepth === 16 ? 8 : -8;
+    for (let i = 0; i < n; i += 4) {
+      dest[i] = red[data[i]];
+      dest[i + 1] = green[data[i + 1]];
+      dest[i + 2] = blue[data[i + 2]];
+      const a = data[i + 3];
+      dest[i + 3] = alphaShift > 0 ? a >> 8 : alphaShift < 0 ? a * 257 : a;
+    }
+  }
+  return dest;
+}
