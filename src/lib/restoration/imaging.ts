@@ -1,0 +1,371 @@
+/**
+ * The engine's only contact with image files (sharp / libvips). Everything else under
+ * src/lib/restoration is pure and runs in the browser too.
+ *
+ * One full decode per scan: {@link analyseAndRender} decodes the oriented sRGB pixels once and
+ * derives the analysis copy, the render and the previews from that single buffer.
+ */
+import { readFile, stat, open } from 'node:fs/promises';
+import sharp from 'sharp';
+import ExifReader from 'exifreader';
+import { analysePixels, type Analysis, type ReducedPixels } from './analysis';
+import { applyCorrection, buildChannelLuts, correctionSchema, type Correction } from './correction';
+import { ScanRejected } from './errors';
+
+export { ScanRejected } from './errors';
+
+/** Default refusal limits: 150 megapixels covers an 8x10 in print at 1200 dpi; 500 MB any sane file. */
+export const DEFAULT_LIMITS = { maxPixels: 150_000_000, maxBytes: 500 * 1024 * 1024 };
+
+export type ScanFormat = 'jpeg' | 'png' | 'tiff';
+
+/** What the header of a scan says, read without decoding the pixels. */
+export interface ScanProbe {
+  format: ScanFormat;
+  /** Size after EXIF orientation is applied: the size of every render. */
+  width: number;
+  height: number;
+  /** Size as stored in the file. */
+  storedWidth: number;
+  storedHeight: number;
+  orientation: number;
+  channels: number;
+  bitsPerChannel: 8 | 16;
+  /** libvips' name for the stored colour space: 'srgb', 'b-w', 'cmyk', 'rgb16', 'grey16'... */
+  space: string;
+  hasAlpha: boolean;
+  hasIccProfile: boolean;
+  /** Pixels per inch, when the file records it. */
+  density?: number;
+  bytes: number;
+}
+
+export interface ScanLimits {
+  maxPixels: number;
+  maxBytes: number;
+}
+
+function sniff(head: Buffer): ScanFormat | string {
+  if (head.length >= 3 && head[0] === 0xff && head[1] === 0xd8 && head[2] === 0xff) return 'jpeg';
+  if (head.length >= 8 && head.subarray(0, 8).equals(Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]))) return 'png';
+  if (head.length >= 4 && ((head[0] === 0x49 && head[1] === 0x49 && (head[2] === 0x2a || head[2] === 0x2b) && head[3] === 0) || (head[0] === 0x4d && head[1] === 0x4d && head[2] === 0 && (head[3] === 0x2a || head[3] === 0x2b)))) return 'tiff';
+  const text = head.toString('latin1').trimStart().toLowerCase();
+  if (text.startsWith('<svg') || (text.startsWith('<?xml') && text.includes('<svg'))) return 'an SVG drawing';
+  if (text.startsWith('<!doctype html') || text.startsWith('<html')) return 'a web page (HTML)';
+  if (text.startsWith('<')) return 'an XML or HTML document';
+  if (head.subarray(0, 4).toString('latin1') === 'RIFF') return 'a WebP or other RIFF file';
+  if (head.subarray(0, 4).toString('latin1') === 'GIF8') return 'a GIF image';
+  if (head.subarray(0, 5).toString('latin1') === '%PDF-') return 'a PDF document';
+  const printable = [...head].filter((b) => b === 9 || b === 10 || b === 13 || (b >= 32 && b < 127)).length;
+  if (head.length > 0 && printable / head.length > 0.95) return 'a text file';
+  return 'not a JPEG, PNG or TIFF image';
+}
+
+const SNIFF_BYTES = 512;
+
+async function headOf(input: string | Buffer): Promise<{ head: Buffer; bytes: number }> {
+  if (Buffer.isBuffer(input)) return { head: input.subarray(0, SNIFF_BYTES), bytes: input.length };
+  let st;
+  try {
+    st = await stat(input);
+  } catch (err) {
+    throw new ScanRejected('unreadable', `The file could not be opened: ${(err as NodeJS.ErrnoException).code ?? 'error'}.`, { cause: err });
+  }
+  if (!st.isFile()) throw new ScanRejected('unreadable', 'This is not a regular file.');
+  const fh = await open(input, 'r');
+  try {
+    const head = Buffer.alloc(Math.min(SNIFF_BYTES, st.size));
+    await fh.read(head, 0, head.length, 0);
+    return { head, bytes: st.size };
+  } finally {
+    await fh.close();
+  }
+}
+
+/**
+ * Reads the header of a scan and refuses what must not be decoded: empty files, anything that is
+ * not JPEG, PNG or TIFF (text, HTML, SVG are refused by type, never rendered), files over the
+ * byte limit, and images whose header claims more pixels than the limit (decompression bombs).
+ * @throws {ScanRejected}
+ */
+export async function probeScan(input: string | Buffer, limits: Partial<ScanLimits> = {}): Promise<ScanProbe> {
+  const lim = { ...DEFAULT_LIMITS, ...limits };
+  const { head, bytes } = await headOf(input);
+  if (bytes === 0) throw new ScanRejected('empty', 'The file is empty (0 bytes).');
+  if (bytes > lim.maxBytes) throw new ScanRejected('too_large', `The file is ${Math.round(bytes / 1048576)} MB; the limit is ${Math.round(lim.maxBytes / 1048576)} MB.`);
+  const kind = sniff(head);
+  if (kind !== 'jpeg' && kind !== 'png' && kind !== 'tiff') {
+    throw new ScanRejected('unsupported_type', `This is ${kind}, not a scan: only JPEG, PNG and TIFF images are taken.`);
+  }
+  let meta: sharp.Metadata;
+  try {
+    // header only: metadata() does not decode pixels, so a bomb is measured, not expanded
+    meta = await sharp(input, { limitInputPixels: false }).metadata();
+  } catch (err) {
+    throw new ScanRejected('unreadable', `The ${kind.toUpperCase()} header is damaged and cannot be read.`, { cause: err });
+  }
+  const w = meta.width ?? 0;
+  const h = meta.height ?? 0;
+  if (w < 1 || h < 1) throw new ScanRejected('unreadable', 'The image header gives no size.');
+  if (w * h > lim.maxPixels) {
+    throw new ScanRejected('too_many_pixels', `The image claims ${w} x ${h} pixels (${Math.round((w * h) / 1e6)} megapixels); the limit is ${Math.round(lim.maxPixels / 1e6)} megapixels.`);
+  }
+  const orientation = meta.orientation ?? 1;
+  const swap = orientation >= 5 && orientation <= 8;
+  const sixteen = meta.depth === 'ushort' || meta.space === 'rgb16' || meta.space === 'grey16';
+  return {
+    format: kind,
+    width: swap ? h : w,
+    height: swap ? w : h,
+    storedWidth: w,
+    storedHeight: h,
+    orientation,
+    channels: meta.channels ?? 3,
+    bitsPerChannel: sixteen ? 16 : 8,
+    space: meta.space ?? 'srgb',
+    hasAlpha: meta.hasAlpha ?? false,
+    hasIccProfile: Boolean(meta.icc),
+    density: meta.density,
+    bytes,
+  };
+}
+
+function decodeError(err: unknown): ScanRejected {
+  if (err instanceof ScanRejected) return err;
+  const msg = String((err as Error)?.message ?? err);
+  if (/premature|truncat|end of (file|data)|short read|unexpected end/i.test(msg)) {
+    return new ScanRejected('unreadable', 'The image is cut short (the file is incomplete or was not fully copied).', { cause: err });
+  }
+  return new ScanRejected('unreadable', 'The image data is damaged and cannot be decoded.', { cause: err });
+}
+
+/**
+ * A decoding pipeline that yields oriented, flattened, sRGB pixels: EXIF orientation applied,
+ * embedded ICC profile (or CMYK) converted to sRGB, alpha composited on white paper, greyscale
+ * expanded to three channels.
+ */
+function decoder(input: string | Buffer, probe: ScanProbe, keep16: boolean): sharp.Sharp {
+  let img = sharp(input, {
+    failOn: 'truncated',
+    limitInputPixels: probe.storedWidth * probe.storedHeight,
+    sequentialRead: true,
+  }).rotate();
+  if (probe.hasAlpha) img = img.flatten({ background: '#ffffff' });
+  return img.toColourspace(keep16 && probe.bitsPerChannel === 16 ? 'rgb16' : 'srgb');
+}
+
+/**
+ * Decodes a reduced copy for analysis (shrink-on-load where the format allows), always 8-bit RGB.
+ * @throws {ScanRejected}
+ */
+export async function loadReduced(input: string | Buffer, longSide = 1280, limits?: Partial<ScanLimits>): Promise<ReducedPixels> {
+  const probe = await probeScan(input, limits);
+  try {
+    const { data, info } = await decoder(input, probe, false)
+      .resize({ width: longSide, height: longSide, fit: 'inside', withoutEnlargement: true })
+      .raw()
+      .toBuffer({ resolveWithObject: true });
+    return { data: new Uint8Array(data.buffer, data.byteOffset, data.length), width: info.width, height: info.height, channels: info.channels, depth: 8 };
+  } catch (err) {
+    throw decodeError(err);
+  }
+}
+
+/** Full-resolution oriented sRGB pixels of a scan, 8 or 16 bits per channel. */
+export interface FullPixels extends ReducedPixels {
+  probe: ScanProbe;
+}
+
+/** Decodes the whole scan once, keeping 16 bits per channel when the file has them. @throws {ScanRejected} */
+export async function loadFull(input: string | Buffer, limits?: Partial<ScanLimits>, probe?: ScanProbe): Promise<FullPixels> {
+  const p = probe ?? (await probeScan(input, limits));
+  try {
+    const { data, info } = await decoder(input, p, true).raw({ depth: p.bitsPerChannel === 16 ? 'ushort' : 'uchar' }).toBuffer({ resolveWithObject: true });
+    if (p.bitsPerChannel === 16) {
+      const aligned = data.byteOffset % 2 === 0 ? data : Buffer.from(data);
+      return { data: new Uint16Array(aligned.buffer, aligned.byteOffset, aligned.length / 2), width: info.width, height: info.height, channels: info.channels, depth: 16, probe: p };
+    }
+    return { data: new Uint8Array(data.buffer, data.byteOffset, data.length), width: info.width, height: info.height, channels: info.channels, depth: 8, probe: p };
+  } catch (err) {
+    throw decodeError(err);
+  }
+}
+
+/**
+ * Box-averages full pixels down to at most `longSide` on the long side (integer factor), as
+ * 8-bit: the analysis copy, without a second decode.
+ */
+export function reduceInMemory(full: ReducedPixels, longSide = 1280): ReducedPixels {
+  const f = Math.max(1, Math.ceil(Math.max(full.width, full.height) / longSide));
+  const w = Math.max(1, Math.floor(full.width / f));
+  const h = Math.max(1, Math.floor(full.height / f));
+  const ch = full.channels;
+  const out = new Uint8Array(w * h * 3);
+  const src = full.data;
+  const shift = full.depth === 16 ? 8 : 0;
+  const acc = new Float64Array(w * 3);
+  const norm = 1 / (f * f);
+  for (let y = 0; y < h; y++) {
+    acc.fill(0);
+    for (let dy = 0; dy < f; dy++) {
+      let i = ((y * f + dy) * full.width) * ch;
+      for (let x = 0; x < w; x++) {
+        const o = x * 3;
+        for (let dx = 0; dx < f; dx++, i += ch) {
+          acc[o] += src[i];
+          acc[o + 1] += src[i + 1];
+          acc[o + 2] += src[i + 2];
+        }
+      }
+    }
+    const row = y * w * 3;
+    for (let k = 0; k < w * 3; k++) out[row + k] = Math.round((acc[k] * norm) / (1 << shift)) & 0xff;
+  }
+  return { data: out, width: w, height: h, channels: 3, depth: 8 };
+}
+
+/** Decodes a reduced copy and measures the print. @throws {ScanRejected} */
+export async function analyseScan(input: string | Buffer, limits?: Partial<ScanLimits>): Promise<Analysis> {
+  return analysePixels(await loadReduced(input, 1280, limits));
+}
+
+const EXIF_KEEP = {
+  IFD0: ['Make', 'Model', 'DateTime', 'Artist', 'Copyright', 'ImageDescription'],
+  IFD2: ['DateTimeOriginal', 'DateTimeDigitized', 'OffsetTimeOriginal'],
+} as const;
+
+/** The EXIF worth carrying from a scan to its render: dates, device, author. Orientation is not: the pixels are turned. */
+export function meaningfulExif(file: Buffer): sharp.Exif {
+  const out: sharp.Exif = {};
+  let tags: ExifReader.Tags;
+  try {
+    tags = ExifReader.load(file);
+  } catch {
+    return out;
+  }
+  for (const [ifd, names] of Object.entries(EXIF_KEEP) as [keyof typeof EXIF_KEEP, readonly string[]][]) {
+    for (const name of names) {
+      const tag = (tags as Record<string, { description?: string } | undefined>)[name];
+      const text = tag?.description?.trim();
+      // libvips flattens non-ASCII and trims some punctuation: keep EXIF plain (CHECKS.md)
+      if (text && /^[\x20-\x7e]+$/.test(text)) (out[ifd] ??= {})[name] = text;
+    }
+  }
+  return out;
+}
+
+export interface RenderOptions {
+  /** JPEG quality, default 92. */
+  quality?: number;
+  /** Scale the render down to this long side (the full-resolution render when absent). */
+  maxSide?: number;
+  /** Also make small JPEGs of the original and the corrected image from the same decode. */
+  previews?: { thumbnail?: number; preview?: number };
+}
+
+export interface PreviewSet {
+  thumbnail?: Buffer;
+  preview?: Buffer;
+}
+
+export interface RenderResult {
+  /** sRGB JPEG with an embedded sRGB profile. */
+  buffer: Buffer;
+  width: number;
+  height: number;
+  previews?: { original: PreviewSet; corrected: PreviewSet };
+}
+
+function rawImage(p: ReducedPixels): sharp.Sharp {
+  const bytes = Buffer.from(p.data.buffer, p.data.byteOffset, p.data.byteLength);
+  const raw = { width: p.width, height: p.height, channels: p.channels as 3 | 4 };
+  return p.depth === 16 ? sharp(bytes, { raw: { ...raw, depth: 'ushort' as const } } as sharp.SharpOptions) : sharp(bytes, { raw });
+}
+
+async function previewSet(p: ReducedPixels, sizes: RenderOptions['previews']): Promise<PreviewSet> {
+  const out: PreviewSet = {};
+  const make = (side: number) =>
+    rawImage(p).resize({ width: side, height: side, fit: 'inside', withoutEnlargement: true }).toColourspace('srgb').jpeg({ quality: 82 }).toBuffer();
+  if (sizes?.preview) out.preview = await make(sizes.preview);
+  if (sizes?.thumbnail) out.thumbnail = await make(sizes.thumbnail);
+  return out;
+}
+
+async function renderFromFull(full: FullPixels, file: Buffer | null, correction: Correction, options: RenderOptions): Promise<RenderResult> {
+  const c = correctionSchema.parse(correction);
+  let src: ReducedPixels = full;
+  if (options.maxSide && Math.max(full.width, full.height) > options.maxSide) {
+    const { data, info } = await rawImage(full)
+      .resize({ width: options.maxSide, height: options.maxSide, fit: 'inside' })
+      .raw({ depth: full.depth === 16 ? 'ushort' : 'uchar' })
+      .toBuffer({ resolveWithObject: true });
+    src = { data: full.depth === 16 ? new Uint16Array(Buffer.from(data).buffer) : new Uint8Array(data), width: info.width, height: info.height, channels: info.channels, depth: full.depth };
+  }
+  const luts = buildChannelLuts(c, src.depth, 8);
+  const corrected: ReducedPixels = { data: applyCorrection(src.data, src.channels, luts) as Uint8Array, width: src.width, height: src.height, channels: src.channels, depth: 8 };
+  let out = rawImage(corrected).withIccProfile('srgb');
+  if (full.probe.density) out = out.withMetadata({ density: full.probe.density });
+  const exif = file ? meaningfulExif(file) : {};
+  if (Object.keys(exif).length > 0) out = out.withExif(exif);
+  const buffer = await out.jpeg({ quality: options.quality ?? 92, chromaSubsampling: '4:2:0' }).toBuffer();
+  const result: RenderResult = { buffer, width: corrected.width, height: corrected.height };
+  if (options.previews && (options.previews.preview || options.previews.thumbnail)) {
+    const [original, correctedSet] = await Promise.all([previewSet(src, options.previews), previewSet(corrected, options.previews)]);
+    result.previews = { original, corrected: correctedSet };
+  }
+  return result;
+}
+
+async function asBuffer(input: string | Buffer): Promise<Buffer> {
+  if (Buffer.isBuffer(input)) return input;
+  try {
+    return await readFile(input);
+  } catch (err) {
+    throw new ScanRejected('unreadable', `The file could not be read: ${(err as NodeJS.ErrnoException).code ?? 'error'}.`, { cause: err });
+  }
+}
+
+/**
+ * Renders a correction at full resolution (same pixel size as the oriented original), as an
+ * sRGB JPEG with the sRGB profile embedded and the original's meaningful EXIF carried over.
+ * @throws {ScanRejected}
+ */
+export async function renderCorrected(input: string | Buffer, correction: Correction, options: RenderOptions = {}, limits?: Partial<ScanLimits>): Promise<RenderResult> {
+  const probe = await probeScan(input, limits);
+  const file = await asBuffer(input);
+  const full = await loadFull(file, limits, probe);
+  return renderFromFull(full, file, correction, options);
+}
+
+export interface AnalyseAndRenderOptions extends RenderOptions {
+  /** 0..1, applied to the proposed correction. Default 1. */
+  strength?: number;
+  /** Use this correction instead of the proposed one (e.g. pooled across a batch). */
+  correction?: Correction;
+  /** Long side of the analysis copy, default 1280. */
+  analysisSide?: number;
+  limits?: Partial<ScanLimits>;
+}
+
+export interface AnalyseAndRenderResult extends RenderResult {
+  probe: ScanProbe;
+  analysis: Analysis;
+  /** The correction that was rendered. */
+  correction: Correction;
+}
+
+/**
+ * Decodes a scan once, measures it on a copy reduced in memory, renders the correction and,
+ * when asked, the previews: the path the command line and the job worker take.
+ * @throws {ScanRejected}
+ */
+export async function analyseAndRender(input: string | Buffer, options: AnalyseAndRenderOptions = {}): Promise<AnalyseAndRenderResult> {
+  const file = await asBuffer(input);
+  const probe = await probeScan(file, options.limits);
+  const full = await loadFull(file, options.limits, probe);
+  const analysis = analysePixels(reduceInMemory(full, options.analysisSide ?? 1280));
+  const base = options.correction ?? analysis.proposed;
+  const correction = { ...base, strength: options.strength ?? base.strength };
+  const render = await renderFromFull(full, file, correction, options);
+  return { ...render, probe, analysis, correction };
+}
