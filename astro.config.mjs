@@ -1,0 +1,27 @@
+// @ts-check
+import { defineConfig } from 'astro/config';
+import node from '@astrojs/node';
+import react from '@astrojs/react';
+import tailwind from '@astrojs/tailwind';
+
+/**
+ * Hosts the server answers on. Astro ignores the Host header unless it is listed here,
+ * and Auth.js builds its sign-in links from the request URL, so the public URL's host
+ * (APP_URL, read at build time) joins the loopback names used by `npm start` and the tests.
+ */
+const allowedDomains = [{ hostname: '127.0.0.1' }, { hostname: 'localhost' }];
+if (process.env.APP_URL) {
+  const url = new URL(process.env.APP_URL);
+  allowedDomains.push({ hostname: url.hostname, protocol: url.protocol.replace(':', ''), port: url.port || undefined });
+}
+
+export default defineConfig({
+  output: 'server',
+  adapter: node({ mode: 'standalone' }),
+  integrations: [react(), tailwind({ applyBaseStyles: false })],
+  security: { checkOrigin: true, allowedDomains },
+  server: { host: '127.0.0.1' },
+  vite: {
+    ssr: { external: ['sharp', 'pg', 'pg-hstore', 'sequelize', 'pg-boss', 'nodemailer'] },
+  },
+});

@@ -1,0 +1,40 @@
+import { DataTypes, Model, type CreationOptional, type InferAttributes, type InferCreationAttributes, type Sequelize } from 'sequelize';
+
+export const SOURCE_KINDS = ['box', 'drawer', 'album', 'envelope', 'other'] as const;
+export type SourceKind = (typeof SOURCE_KINDS)[number];
+
+/** One sitting's scans from one physical source (a box, drawer, album or envelope). */
+export class Batch extends Model<InferAttributes<Batch>, InferCreationAttributes<Batch>> {
+  declare id: CreationOptional<string>;
+  declare archiveId: string;
+  declare name: string;
+  declare sourceKind: CreationOptional<SourceKind>;
+  declare sourceLabel: CreationOptional<string>;
+  declare dateFrom: CreationOptional<string | null>;
+  declare dateTo: CreationOptional<string | null>;
+  declare notes: CreationOptional<string>;
+  declare createdBy: string | null;
+  declare finishedNotifiedAt: CreationOptional<Date | null>;
+  declare createdAt: CreationOptional<Date>;
+  declare updatedAt: CreationOptional<Date>;
+
+  static initModel(sequelize: Sequelize) {
+    Batch.init(
+      {
+        id: { type: DataTypes.UUID, primaryKey: true, defaultValue: DataTypes.UUIDV4 },
+        archiveId: { type: DataTypes.UUID, allowNull: false },
+        name: { type: DataTypes.STRING(200), allowNull: false },
+        sourceKind: { type: DataTypes.ENUM(...SOURCE_KINDS), allowNull: false, defaultValue: 'box' },
+        sourceLabel: { type: DataTypes.STRING(200), allowNull: false, defaultValue: '' },
+        dateFrom: DataTypes.STRING(40),
+        dateTo: DataTypes.STRING(40),
+        notes: { type: DataTypes.TEXT, allowNull: false, defaultValue: '' },
+        createdBy: DataTypes.UUID,
+        finishedNotifiedAt: DataTypes.DATE,
+        createdAt: DataTypes.DATE,
+        updatedAt: DataTypes.DATE,
+      },
+      { sequelize, tableName: 'batches', modelName: 'batch', underscored: true },
+    );
+  }
+}

@@ -1,0 +1,68 @@
+import { DataTypes, Model, type CreationOptional, type InferAttributes, type InferCreationAttributes, type Sequelize } from 'sequelize';
+
+export const ITEM_STATES = ['queued', 'analysing', 'ready', 'failed'] as const;
+export type ItemState = (typeof ITEM_STATES)[number];
+export const DECISIONS = ['accepted', 'accepted_adjusted', 'rescan', 'skipped'] as const;
+export type Decision = (typeof DECISIONS)[number];
+export const NEGATIVE_AVAILABILITY = ['yes', 'no', 'unknown'] as const;
+export type NegativeAvailability = (typeof NEGATIVE_AVAILABILITY)[number];
+
+/** One print: its original scan, its analysis, its current correction and the operator's decision. */
+export class Item extends Model<InferAttributes<Item>, InferCreationAttributes<Item>> {
+  declare id: CreationOptional<string>;
+  declare archiveId: string;
+  declare batchId: string;
+  declare originalId: string;
+  declare seq: number;
+  declare originalName: string;
+  declare state: CreationOptional<ItemState>;
+  declare failureReason: CreationOptional<string | null>;
+  declare analysis: CreationOptional<Record<string, unknown> | null>;
+  declare fadeGrade: CreationOptional<string | null>;
+  declare currentVersion: CreationOptional<number | null>;
+  declare thumbKey: CreationOptional<string | null>;
+  declare previewKey: CreationOptional<string | null>;
+  declare renderKey: CreationOptional<string | null>;
+  declare renderVersion: CreationOptional<number | null>;
+  declare decision: CreationOptional<Decision | null>;
+  declare decidedBy: CreationOptional<string | null>;
+  declare decidedAt: CreationOptional<Date | null>;
+  declare negativeAvailable: CreationOptional<NegativeAvailability | null>;
+  declare negativeLocation: CreationOptional<string | null>;
+  declare rescanNote: CreationOptional<string | null>;
+  declare lockVersion: CreationOptional<number>;
+  declare createdAt: CreationOptional<Date>;
+  declare updatedAt: CreationOptional<Date>;
+
+  static initModel(sequelize: Sequelize) {
+    Item.init(
+      {
+        id: { type: DataTypes.UUID, primaryKey: true, defaultValue: DataTypes.UUIDV4 },
+        archiveId: { type: DataTypes.UUID, allowNull: false },
+        batchId: { type: DataTypes.UUID, allowNull: false },
+        originalId: { type: DataTypes.UUID, allowNull: false },
+        seq: { type: DataTypes.INTEGER, allowNull: false },
+        originalName: { type: DataTypes.STRING(300), allowNull: false },
+        state: { type: DataTypes.ENUM(...ITEM_STATES), allowNull: false, defaultValue: 'queued' },
+        failureReason: DataTypes.TEXT,
+        analysis: DataTypes.JSONB,
+        fadeGrade: DataTypes.STRING(20),
+        currentVersion: DataTypes.INTEGER,
+        thumbKey: DataTypes.STRING(300),
+        previewKey: DataTypes.STRING(300),
+        renderKey: DataTypes.STRING(300),
+        renderVersion: DataTypes.INTEGER,
+        decision: DataTypes.ENUM(...DECISIONS),
+        decidedBy: DataTypes.UUID,
+        decidedAt: DataTypes.DATE,
+        negativeAvailable: DataTypes.ENUM(...NEGATIVE_AVAILABILITY),
+        negativeLocation: DataTypes.STRING(300),
+        rescanNote: DataTypes.TEXT,
+        lockVersion: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
+        createdAt: DataTypes.DATE,
+        updatedAt: DataTypes.DATE,
+      },
+      { sequelize, tableName: 'items', modelName: 'item', underscored: true },
+    );
+  }
+}

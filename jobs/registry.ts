@@ -1,0 +1,14 @@
+import type PgBoss from 'pg-boss';
+import type { AppConfig } from '../src/lib/server/config.ts';
+
+/** One queue's handler as the worker registers it. */
+export interface JobHandler {
+  queue: string;
+  handle: PgBoss.WorkHandler<any>;
+  /** How many of this queue's jobs one worker runs at a time. */
+  concurrency?: (c: AppConfig) => number;
+  workOptions?: PgBoss.WorkOptions;
+}
+
+/** Every handler the worker runs; each lives in its own file under jobs/. */
+export const HANDLERS: JobHandler[] = [];
