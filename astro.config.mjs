@@ -17,6 +17,8 @@ if (process.env.APP_URL) {
 
 export default defineConfig({
   output: 'server',
+  // The app and the test run build side by side, so a running `npm start` survives `npm test`.
+  outDir: process.env.DRAWERLIGHT_OUT_DIR ?? './dist/app',
   adapter: node({ mode: 'standalone' }),
   integrations: [react(), tailwind({ applyBaseStyles: false })],
   security: { checkOrigin: true, allowedDomains },

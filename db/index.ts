@@ -58,3 +58,6 @@ export async function closeDb(): Promise<void> {
     instance = undefined;
   }
 }
+
+// Models are usable as soon as this module is imported (the connection opens on the first query).
+db();
