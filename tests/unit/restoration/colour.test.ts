@@ -59,7 +59,7 @@ describe('sRGB -> XYZ (IEC 61966-2-1, 4-decimal matrix)', () => {
   });
 
   it('agrees with colorjs.io xyz-d65 within the 4-decimal rounding of the matrix', () => {
-    for (const rgb of [[0.8, 0.2, 0.1], [0.1, 0.5, 0.9], [0.45, 0.45, 0.45]]) {
+    for (const rgb of [[0.8, 0.2, 0.1], [0.1, 0.5, 0.9], [0.45, 0.45, 0.45]] as [number, number, number][]) {
       const ref = new Color('srgb', rgb).to('xyz-d65').coords;
       srgbToXyz(rgb).forEach((v, i) => expect(Math.abs(v - ref[i])).toBeLessThan(3e-4));
     }
@@ -124,7 +124,7 @@ describe('CIEDE2000 (Sharma, Wu & Dalal 2005, Table 1)', () => {
   });
 
   it('agrees with colorjs.io on every pair and on colours it was not tuned on (reference library)', () => {
-    const cases: number[][][] = pairs.map((p) => [[+p.L1, +p.a1, +p.b1], [+p.L2, +p.a2, +p.b2]]);
+    const cases: [number, number, number][][] = pairs.map((p) => [[+p.L1, +p.a1, +p.b1], [+p.L2, +p.a2, +p.b2]]);
     for (let i = 0; i < 40; i++) {
       const t = i / 40;
       cases.push([[20 + 60 * t, 80 * Math.cos(9 * t), 80 * Math.sin(7 * t)], [30 + 50 * t, -60 * Math.sin(5 * t), 70 * Math.cos(3 * t)]]);
