@@ -25,8 +25,11 @@ export const DEMO_USERS: { email: string; name: string; role: Role }[] = [
   { email: 'aunt.maud@hartigan.example', name: 'Maud Pellow', role: 'viewer' },
 ];
 
-/** Seeds the demo when there is no archive yet; returns whether it did. */
-export async function seedDemo(): Promise<boolean> {
+/**
+ * Seeds the demo when there is no archive yet; returns whether it did. The tests seed the
+ * accounts only (`withContent: false`), without the demo batches of synthetic scans.
+ */
+export async function seedDemo({ withContent = true }: { withContent?: boolean } = {}): Promise<boolean> {
   const sequelize = db();
   if ((await Archive.count()) > 0) return false;
   const passwordHash = await hashPassword(DEMO_PASSWORD);
@@ -39,7 +42,7 @@ export async function seedDemo(): Promise<boolean> {
       if (u.role === 'owner') await Membership.create({ archiveId: second.id, userId: user.id, role: 'owner' }, { transaction });
     }
   });
-  for (const hook of afterSeedHooks) await hook();
+  if (withContent) for (const hook of afterSeedHooks) await hook();
   return true;
 }
 

@@ -1,0 +1,72 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { BrowserContext } from 'playwright-core';
+import { closeDb } from '../../db/index.ts';
+import { DEMO_PASSWORD, DEMO_USERS } from '../../db/seeders/demo.ts';
+import { launchBrowser, signInPage, snap } from '../support/browser.ts';
+import { BASE } from '../support/http.ts';
+import { waitForMail } from '../support/outbox.ts';
+
+const owner = DEMO_USERS.find((u) => u.role === 'owner')!;
+let browser: BrowserContext;
+beforeAll(async () => {
+  browser = await launchBrowser();
+});
+afterAll(async () => {
+  await browser?.close();
+  await closeDb();
+});
+
+describe('signing in and the shell', () => {
+  it('signs the demo owner in and shows the shell with every section', async () => {
+    const page = await browser.newPage();
+    await signInPage(page, owner.email, DEMO_PASSWORD);
+    expect(new URL(page.url()).pathname).toBe('/batches');
+    const nav = page.getByRole('navigation', { name: 'Main' });
+    for (const label of ['Batches', 'Rescan list', 'Export', 'Team', 'Settings']) await expect(nav.getByRole('link', { name: label }).isVisible()).resolves.toBe(true);
+    await expect(page.getByLabel('Archive').inputValue()).resolves.toBe('hartigan');
+    await snap(page, 'shell-owner');
+    await page.getByRole('button', { name: 'Sign out' }).click();
+    await page.waitForURL(/\/signin/);
+    await page.goto(`${BASE}/team`);
+    expect(new URL(page.url()).pathname).toBe('/signin');
+    await page.close();
+  });
+
+  it('refuses a wrong password with a clear message', async () => {
+    const page = await browser.newPage();
+    await signInPage(page, owner.email, 'not the password');
+    const alert = page.getByRole('alert');
+    await expect(alert.textContent()).resolves.toContain('do not match');
+    expect(new URL(page.url()).pathname).toBe('/signin');
+    await snap(page, 'signin-wrong-password');
+    await page.close();
+  });
+
+  it('invites a new member whose link from the Outbox signs them in as a viewer without owner actions', async () => {
+    const page = await browser.newPage();
+    await signInPage(page, owner.email, DEMO_PASSWORD);
+    await page.goto(`${BASE}/team`);
+    const email = `cousin.${Date.now()}@hartigan.example`;
+    await page.getByLabel('E-mail').fill(email);
+    await page.getByLabel('Role', { exact: true }).selectOption('viewer');
+    await page.getByRole('button', { name: 'Send invitation' }).click();
+    await page.getByText(`Invitation sent to ${email}.`).waitFor();
+    await waitForMail(email, /invited/);
+    await page.getByRole('button', { name: 'Sign out' }).click();
+    await page.waitForURL(/\/signin/);
+
+    await page.goto(`${BASE}/outbox`);
+    const mail = page.locator(`[data-mail-to="${email}"]`).first();
+    await mail.getByRole('link', { name: /\/invite\// }).click();
+    await page.getByLabel('Your name').fill('Cousin Orla');
+    await page.getByLabel(/Choose a password/).fill('a long enough password');
+    await page.getByRole('button', { name: /Join the/ }).click();
+    await page.waitForURL(/\/batches/);
+    await expect(page.locator('[data-user-email]').textContent()).resolves.toContain('Cousin Orla');
+    await page.goto(`${BASE}/team`);
+    await expect(page.locator('[data-owner-only]').isVisible()).resolves.toBe(true);
+    await expect(page.getByRole('button', { name: 'Send invitation' }).count()).resolves.toBe(0);
+    await snap(page, 'viewer-team-page');
+    await page.close();
+  });
+});

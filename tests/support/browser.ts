@@ -1,0 +1,38 @@
+/**
+ * Debian's Chromium driven by playwright-core, for the browser tests. Screenshots are kept in
+ * tests/artifacts/ (git-ignored) as evidence of what the user saw.
+ */
+import fs from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { chromium, type BrowserContext, type Page } from 'playwright-core';
+import { BASE } from './http.ts';
+
+export const ARTIFACTS = path.resolve('tests/artifacts');
+
+export async function launchBrowser(): Promise<BrowserContext> {
+  const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'drawerlight-chromium-'));
+  return chromium.launchPersistentContext(dir, {
+    executablePath: '/usr/bin/chromium',
+    headless: true,
+    viewport: { width: 1280, height: 860 },
+    args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'],
+  });
+}
+
+/** Saves a full-page screenshot under tests/artifacts/<name>.png. */
+export async function snap(page: Page, name: string): Promise<string> {
+  fs.mkdirSync(ARTIFACTS, { recursive: true });
+  const file = path.join(ARTIFACTS, `${name}.png`);
+  await page.screenshot({ path: file, fullPage: true });
+  return file;
+}
+
+/** Signs in through the sign-in page as a person would. */
+export async function signInPage(page: Page, email: string, password: string): Promise<void> {
+  await page.goto(`${BASE}/signin`);
+  await page.getByLabel('E-mail', { exact: true }).fill(email);
+  await page.getByLabel('Password').fill(password);
+  await page.getByRole('button', { name: 'Sign in', exact: true }).click();
+  await page.waitForLoadState('networkidle');
+}
