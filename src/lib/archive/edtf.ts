@@ -1,0 +1,198 @@
+/**
+ * Dates of prints in EDTF (Library of Congress Extended Date/Time Format, ISO 8601-2), parsed by
+ * the `edtf` package and put into plain words: "about 1981", "the 1980s", "summer 1981",
+ * "between 1980 and 1985". Pure code, shared by the server and the caption form in the browser.
+ */
+import edtf, { type EdtfValue } from 'edtf';
+
+const MONTHS = ['January', 'February', 'March', 'April', 'May', 'June', 'July', 'August', 'September', 'October', 'November', 'December'];
+/** ISO 8601-2 sub-year groupings 21–24 (seasons), 33–36 (quarters), 40–41 (halves). */
+const GROUPINGS: Record<number, string> = {
+  21: 'spring', 22: 'summer', 23: 'autumn', 24: 'winter',
+  33: 'the first quarter of', 34: 'the second quarter of', 35: 'the third quarter of', 36: 'the fourth quarter of',
+  40: 'the first half of', 41: 'the second half of',
+};
+// EDTF.js keeps qualifier and "X" digit flags as bitmasks over YYYYMMDD, one bit per digit.
+const YEAR_DIGITS = 0b1111;
+const MONTH_DIGITS = 0b110000;
+const DAY_DIGITS = 0b11000000;
+
+/** A print's date, understood. */
+export interface PrintDate {
+  /** The EDTF string as EDTF.js writes it back (normalised). */
+  edtf: string;
+  /** The date in words, e.g. "about 1981". */
+  words: string;
+  /** A single, unqualified calendar day: the only case EXIF DateTimeOriginal may carry. */
+  exact: boolean;
+  /** The earliest year the date allows, when known (folders and sorting). */
+  year: number | null;
+  /** The folder an export files the print under: "1981", "1980s", "1900s". */
+  folder: string;
+  /** XMP photoshop:DateCreated ("1981", "1981-07", "1981-07-15"), or null when the date is a span or a decade. */
+  xmpDate: string | null;
+  /** EXIF DateTimeOriginal ("1981:07:15 00:00:00"), only for exact dates. */
+  exifDate: string | null;
+}
+
+/** Thrown for text that is not an EDTF date Drawerlight understands. */
+export class DateNotUnderstood extends Error {
+  constructor(readonly input: string, detail: string) {
+    super(detail);
+    this.name = 'DateNotUnderstood';
+  }
+}
+
+const bits = (m: { value: number } | undefined, mask: number) => ((m?.value ?? 0) & mask) !== 0;
+const pad = (n: number, w = 2) => String(n).padStart(w, '0');
+
+/** An endpoint of an interval that is really there (EDTF.js gives null, undefined or the epoch for unknown ends). */
+function knownEnd(v: EdtfValue | null | undefined): EdtfValue | null {
+  if (!v || typeof v !== 'object') return null;
+  if (v.min === null || v.min === undefined || !Number.isFinite(v.min)) return null;
+  return v;
+}
+
+function qualified(v: EdtfValue, core: string): string {
+  const approx = bits(v.approximate, ~0);
+  const uncertain = bits(v.uncertain, ~0);
+  if (approx && uncertain) return `perhaps about ${core}`;
+  if (approx) return `about ${core}`;
+  if (uncertain) return `perhaps ${core}`;
+  return core;
+}
+
+/** The earliest year of a point (a decade "198" starts in 1980). */
+function yearOf(v: EdtfValue): number {
+  const first = Number(v.values[0]);
+  if (v.type === 'Decade') return first * 10;
+  if (v.type === 'Century') return first * 100;
+  return first;
+}
+
+/** Words for one point in time (a Date, Season, Decade or Century of EDTF.js). */
+function pointWords(v: EdtfValue): string {
+  const year = yearOf(v);
+  switch (v.type) {
+    case 'Season': {
+      const g = GROUPINGS[Number(v.values[1])] ?? `season ${v.values[1]} of`;
+      return qualified(v, `${g} ${year}`);
+    }
+    case 'Decade':
+    case 'Century':
+      return qualified(v, `the ${year}s`);
+    case 'Year':
+      return qualified(v, String(year));
+    default:
+      break;
+  }
+  const u = v.unspecified;
+  if (bits(u, YEAR_DIGITS)) {
+    const mask = (u?.value ?? 0) & YEAR_DIGITS;
+    if (mask === 0b1000) return qualified(v, `the ${year}s`);
+    if (mask === 0b1100) return qualified(v, `the ${year}s`);
+    return qualified(v, `some year ${String(year).replace(/0+$/, '')}…`);
+  }
+  const precision = v.precision ?? v.values.length;
+  if (precision === 1) return qualified(v, String(year));
+  if (bits(u, MONTH_DIGITS)) return qualified(v, `some time in ${year}`);
+  const month = MONTHS[Number(v.values[1])];
+  if (precision === 2) return qualified(v, `${month} ${year}`);
+  if (bits(u, DAY_DIGITS)) return qualified(v, `some time in ${month} ${year}`);
+  return qualified(v, `${Number(v.values[2])} ${month} ${year}`);
+}
+
+function folderOf(v: EdtfValue): string {
+  const year = yearOf(v);
+  if (v.type === 'Decade' || v.type === 'Century') return `${year}s`;
+  const mask = (v.unspecified?.value ?? 0) & YEAR_DIGITS;
+  if (mask === 0b1000 || mask === 0b1100) return `${year}s`;
+  return String(year);
+}
+
+function xmpDateOf(v: EdtfValue): string | null {
+  if (v.type === 'Decade' || v.type === 'Century') return null;
+  if (bits(v.unspecified, YEAR_DIGITS)) return null;
+  const year = pad(yearOf(v), 4);
+  if (v.type === 'Season' || v.type === 'Year') return year;
+  const precision = v.precision ?? v.values.length;
+  if (precision === 1 || bits(v.unspecified, MONTH_DIGITS)) return year;
+  const month = pad(Number(v.values[1]) + 1);
+  if (precision === 2 || bits(v.unspecified, DAY_DIGITS)) return `${year}-${month}`;
+  return `${year}-${month}-${pad(Number(v.values[2]))}`;
+}
+
+function isExact(v: EdtfValue): boolean {
+  return v.type === 'Date' && (v.precision ?? 0) === 3 && !bits(v.approximate, ~0) && !bits(v.uncertain, ~0) && !bits(v.unspecified, ~0);
+}
+
+/**
+ * Parses an EDTF date. Accepts the forms families need: "1981", "1981-07", "1981-07-15",
+ * "1981~" (about), "1981?" (perhaps), "1981%" (both), "198X" (the 1980s), "1981-22" (summer),
+ * "1980/1985" (between), "/1985" and "1985/" (an end unknown), "../1985" and "1985/.." (open).
+ * @throws {DateNotUnderstood}
+ */
+export function parsePrintDate(input: string): PrintDate {
+  const text = input.trim();
+  if (!text) throw new DateNotUnderstood(input, 'Write a date, or leave the field empty.');
+  let v: EdtfValue;
+  try {
+    v = edtf(text);
+  } catch {
+    throw new DateNotUnderstood(input, `"${text}" is not an EDTF date: try 1981, 1981-07, 1981~ (about), 198X (the 1980s) or 1980/1985.`);
+  }
+  if (v.type === 'List' || v.type === 'Set') {
+    throw new DateNotUnderstood(input, 'Lists and sets of dates are not supported: give one date or a span such as 1980/1985.');
+  }
+  if (v.type === 'Interval') {
+    const lower = knownEnd(v.lower);
+    const upper = knownEnd(v.upper);
+    const openStart = text.startsWith('..');
+    const openEnd = text.endsWith('..');
+    if (!lower && !upper) throw new DateNotUnderstood(input, 'A span needs at least one known end, e.g. 1980/1985 or /1985.');
+    let words: string;
+    if (lower && upper) {
+      const a = pointWords(lower);
+      const b = pointWords(upper);
+      words = a === b ? a : `between ${a} and ${b}`;
+    } else if (upper) words = openStart ? `${pointWords(upper)} or earlier` : `by ${pointWords(upper)} (start unknown)`;
+    else words = openEnd ? `${pointWords(lower!)} or later` : `from ${pointWords(lower!)} (end unknown)`;
+    const first = lower ?? upper!;
+    const sameYear = lower && upper && yearOf(lower) === yearOf(upper) && !bits(lower.unspecified, YEAR_DIGITS);
+    return {
+      edtf: v.edtf,
+      words,
+      exact: false,
+      year: yearOf(first),
+      folder: folderOf(first),
+      xmpDate: sameYear ? pad(yearOf(lower!), 4) : null,
+      exifDate: null,
+    };
+  }
+  const exact = isExact(v);
+  return {
+    edtf: v.edtf,
+    words: pointWords(v),
+    exact,
+    year: yearOf(v),
+    folder: folderOf(v),
+    xmpDate: xmpDateOf(v),
+    exifDate: exact ? `${pad(yearOf(v), 4)}:${pad(Number(v.values[1]) + 1)}:${pad(Number(v.values[2]))} 00:00:00` : null,
+  };
+}
+
+/** The date in words, or the reason it is not understood (for the form as one types). */
+export function describePrintDate(input: string): { ok: true; date: PrintDate } | { ok: false; message: string } {
+  try {
+    return { ok: true, date: parsePrintDate(input) };
+  } catch (err) {
+    return { ok: false, message: err instanceof DateNotUnderstood ? err.message : String(err) };
+  }
+}
+
+/** Words for a stored EDTF value; empty when there is none, the raw text when it no longer parses. */
+export function dateInWords(value: string | null | undefined): string {
+  if (!value) return '';
+  const r = describePrintDate(value);
+  return r.ok ? r.date.words : value;
+}
