@@ -15,7 +15,19 @@ import { TooManyRequests } from './lib/server/errors.ts';
 const PUBLIC_PAGES = [/^\/signin\/?$/, /^\/invite\/[^/]+\/?$/, /^\/outbox(\/.*)?$/, /^\/help(\/.*)?$/];
 const STATE_CHANGING = new Set(['POST', 'PUT', 'PATCH', 'DELETE']);
 
-const signinLimiter = new RateLimiter(config().signinAttemptsPer15Min, 15 * 60 * 1000);
+// Per address and account, so one family member's typos never lock out another; plus a looser
+// per-address ceiling against someone trying many accounts.
+const signinPerAccount = new RateLimiter(config().signinAttemptsPer15Min, 15 * 60 * 1000);
+const signinPerAddress = new RateLimiter(config().signinAttemptsPer15Min * 50, 15 * 60 * 1000);
+
+async function signinEmail(request: Request): Promise<string> {
+  try {
+    const form = await request.clone().formData();
+    return String(form.get('email') ?? '').trim().toLowerCase().slice(0, 320);
+  } catch {
+    return '';
+  }
+}
 
 const SECURITY_HEADERS: Record<string, string> = {
   'content-security-policy':
@@ -72,7 +84,9 @@ export const onRequest = defineMiddleware(async (ctx, next) => {
   if (path.startsWith('/api/auth/')) {
     if (request.method === 'POST' && (path.endsWith('/callback/credentials') || path.endsWith('/signin/nodemailer'))) {
       try {
-        signinLimiter.hit(clientKey(request, clientAddress));
+        const address = clientKey(request, clientAddress);
+        signinPerAddress.hit(address);
+        signinPerAccount.hit(`${address} ${await signinEmail(request)}`);
       } catch (err) {
         if (err instanceof TooManyRequests) {
           const accept = request.headers.get('accept') ?? '';

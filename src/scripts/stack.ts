@@ -62,7 +62,7 @@ for (const [p, what] of [[port, 'the web server'], [c.smtp.port, 'the mail fake'
 const env = { ...process.env, HOST: '127.0.0.1', PORT: String(port) };
 const procs: StackProcess[] = [
   startProcess('mail fake', process.execPath, ['--import', 'tsx', 'src/scripts/mail-fake.ts'], env, path.join(logDir, 'mail-fake.log')),
-  startProcess('web server', process.execPath, ['dist/app/server/entry.mjs'], env),
+  startProcess('web server', process.execPath, ['--import', 'tsx', 'src/scripts/serve.ts'], env),
   startProcess('worker', process.execPath, ['--import', 'tsx', 'jobs/worker.ts'], workerEnv(env), path.join(logDir, 'worker.log')),
 ];
 

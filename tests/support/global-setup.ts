@@ -24,7 +24,7 @@ export async function setup() {
   const appPort = Number(new URL(process.env.APP_URL!).port);
   const env = { ...process.env, HOST: '127.0.0.1', PORT: String(appPort) };
   procs.push(startProcess('mail fake', process.execPath, ['--import', 'tsx', 'src/scripts/mail-fake.ts'], env, path.join(logs, 'mail-fake.log')));
-  procs.push(startProcess('web server', process.execPath, [`${process.env.DRAWERLIGHT_OUT_DIR}/server/entry.mjs`], env, path.join(logs, 'server.log')));
+  procs.push(startProcess('web server', process.execPath, ['--import', 'tsx', 'src/scripts/serve.ts'], env, path.join(logs, 'server.log')));
   spawnWorker();
   await waitForPort(Number(process.env.SMTP_PORT), 30_000, 'the mail fake');
   await waitForPort(appPort, 60_000, 'the web server');
