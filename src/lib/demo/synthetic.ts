@@ -30,6 +30,11 @@ export interface SceneOptions {
   border?: boolean;
   /** A black-and-white print: every pixel neutral. */
   monochrome?: boolean;
+  /**
+   * Grain and scanner noise, as a standard deviation in density (default 0.01; 0 for none).
+   * Real scans carry it, and it is what makes JPEG files of them large and slow to code.
+   */
+  grain?: number;
 }
 
 /** Per-channel ageing D' = k·D + s, channels red, green, blue (governed by cyan, magenta, yellow dye). */
@@ -154,6 +159,11 @@ const densityToCode = (() => {
   return t;
 })();
 
+/** Reflectance factor of a density offset. */
+function grainFactor(d: number): number {
+  return Math.pow(10, -d);
+}
+
 function codeOf(linear: number): number {
   const d = Math.min(Math.max(-Math.log10(Math.max(linear, 1e-6)), PAPER_DENSITY), MAX_DENSITY);
   return densityToCode[Math.round(d * DENSITY_STEPS)];
@@ -174,6 +184,10 @@ export function generateScene(options: SceneOptions): ScenePixels {
   const pw = Math.max(1, width - 2 * bw);
   const ph = Math.max(1, height - 2 * bw);
   const paper = densityToCode[Math.round(PAPER_DENSITY * DENSITY_STEPS)];
+  const grain = options.grain ?? 0.01;
+  const noise = rng(seed * 7919 + 17);
+  // sum of three uniforms: cheap, bell-shaped, variance 1/4 -> scale to unit variance
+  const gauss = () => (noise() + noise() + noise() - 1.5) * 2;
   for (let y = 0; y < height; y++) {
     const v = (y - bw + 0.5) / ph;
     for (let x = 0; x < width; x++) {
@@ -186,11 +200,13 @@ export function generateScene(options: SceneOptions): ScenePixels {
       const c = sceneColour(u, v, n1, n2);
       if (options.monochrome) {
         const yl = 0.2126 * c[0] + 0.7152 * c[1] + 0.0722 * c[2];
-        data[i] = data[i + 1] = data[i + 2] = codeOf(yl);
+        data[i] = data[i + 1] = data[i + 2] = codeOf(yl * grainFactor(grain * gauss()));
       } else {
-        data[i] = codeOf(c[0]);
-        data[i + 1] = codeOf(c[1]);
-        data[i + 2] = codeOf(c[2]);
+        // dye clouds: partly shared between layers, partly each layer's own
+        const common = grain * 0.7 * gauss();
+        data[i] = codeOf(c[0] * grainFactor(common + grain * 0.7 * gauss()));
+        data[i + 1] = codeOf(c[1] * grainFactor(common + grain * 0.7 * gauss()));
+        data[i + 2] = codeOf(c[2] * grainFactor(common + grain * 0.7 * gauss()));
       }
     }
   }

@@ -105,6 +105,8 @@ const MIN_RETENTION = 0.3;
 const MAX_STAIN = 0.6;
 /** Confidence under which {@link poolAnalyses} blends a print with its siblings. */
 export const POOL_CONFIDENCE = 0.5;
+/** Confidence at or under which a pooled print takes its siblings' estimate outright. */
+const POOL_FLOOR = 0.2;
 
 const densityOf8 = (() => {
   const t = new Float64Array(256);
@@ -232,13 +234,15 @@ function findBorder(v: Uint8Array, ch: number, w: number, h: number): BorderFind
 
 /** Median colour of the cleanest highlights: the pixels of lowest total density. */
 function findHighlight(v: Uint8Array, ch: number, w: number, r: Rect): { paper: Triplet; count: number; spread: number } {
+  // every other pixel in each direction: highlights are regions, not single pixels
+  const s = r.x1 - r.x0 > 400 ? 2 : 1;
   const bins = 1024;
   const scale = bins / 9; // summed density of three channels is at most 9
   const hist = new Uint32Array(bins);
   let n = 0;
-  for (let y = r.y0; y < r.y1; y++) {
+  for (let y = r.y0; y < r.y1; y += s) {
     let i = (y * w + r.x0) * ch;
-    for (let x = r.x0; x < r.x1; x++, i += ch) {
+    for (let x = r.x0; x < r.x1; x += s, i += s * ch) {
       hist[Math.min(bins - 1, Math.floor((densityOf8[v[i]] + densityOf8[v[i + 1]] + densityOf8[v[i + 2]]) * scale))]++;
       n++;
     }
@@ -249,9 +253,9 @@ function findHighlight(v: Uint8Array, ch: number, w: number, r: Rect): { paper: 
   while (cut < bins - 1 && acc + hist[cut] < want) acc += hist[cut++];
   const hs = [new Uint32Array(256), new Uint32Array(256), new Uint32Array(256)];
   let count = 0;
-  for (let y = r.y0; y < r.y1; y++) {
+  for (let y = r.y0; y < r.y1; y += s) {
     let i = (y * w + r.x0) * ch;
-    for (let x = r.x0; x < r.x1; x++, i += ch) {
+    for (let x = r.x0; x < r.x1; x += s, i += s * ch) {
       const b = Math.floor((densityOf8[v[i]] + densityOf8[v[i + 1]] + densityOf8[v[i + 2]]) * scale);
       if (b <= cut) {
         hs[0][v[i]]++;
@@ -358,53 +362,83 @@ function fitOnNeutrals(
   r: Rect,
   paperD: Triplet,
   start: Triplet,
-): { retention: Triplet; share: number; depth: number } | null {
-  const step = Math.max(1, Math.floor(Math.sqrt(((r.x1 - r.x0) * (r.y1 - r.y0)) / 120000)));
-  const dr: number[] = [];
-  const dg: number[] = [];
-  const db: number[] = [];
+): { retention: Triplet; share: number; depth: number; spread: number } | null {
+  const step = Math.max(1, Math.floor(Math.sqrt(((r.x1 - r.x0) * (r.y1 - r.y0)) / 40000)));
+  const cap = (Math.ceil((r.x1 - r.x0) / step) + 1) * (Math.ceil((r.y1 - r.y0) / step) + 1);
+  const dr = new Float32Array(cap);
+  const dg = new Float32Array(cap);
+  const db = new Float32Array(cap);
+  let m = 0;
   let total = 0;
   for (let y = r.y0; y < r.y1; y += step) {
     for (let x = r.x0; x < r.x1; x += step) {
       const i = (y * w + x) * ch;
       total++;
+      // 8-bit codes below 3 are clipped shadows: their density is unknown
+      if (v[i] < 3 || v[i + 1] < 3 || v[i + 2] < 3) continue;
       const a = densityOf8[v[i]] - paperD[0];
       const b = densityOf8[v[i + 1]] - paperD[1];
       const c = densityOf8[v[i + 2]] - paperD[2];
-      // 8-bit codes below 3 are clipped shadows: their density is unknown
-      if (v[i] < 3 || v[i + 1] < 3 || v[i + 2] < 3) continue;
-      if (Math.min(a, b, c) < MIN_NEUTRAL_DENSITY * 0.5) continue;
-      dr.push(a);
-      dg.push(b);
-      db.push(c);
+      if (a < MIN_NEUTRAL_DENSITY * 0.5 || b < MIN_NEUTRAL_DENSITY * 0.5 || c < MIN_NEUTRAL_DENSITY * 0.5) continue;
+      dr[m] = a;
+      dg[m] = b;
+      db[m] = c;
+      m++;
     }
   }
+  const bins = RATIO_BINS;
+  const rgHist = new Float64Array(bins);
+  const bgHist = new Float64Array(bins);
   let k: Triplet = [...start];
-  let last: { retention: Triplet; share: number; depth: number } | null = null;
+  const depthHist = new Uint32Array(61);
+  let last: { retention: Triplet; share: number; depth: number; spread: number } | null = null;
   for (const tol of NEUTRAL_TOLERANCES) {
-    const rg: number[] = [];
-    const bg: number[] = [];
-    const wt: number[] = [];
+    rgHist.fill(0);
+    bgHist.fill(0);
+    depthHist.fill(0);
+    let count = 0;
     let depth = 0;
-    for (let j = 0; j < dg.length; j++) {
+    for (let j = 0; j < m; j++) {
       const R = dr[j] / k[0];
       const G = dg[j] / k[1];
       const B = db[j] / k[2];
       if (G < MIN_NEUTRAL_DENSITY) continue;
       if (Math.abs(R / G - 1) > tol || Math.abs(B / G - 1) > tol) continue;
-      rg.push(dr[j] / dg[j]);
-      bg.push(db[j] / dg[j]);
-      wt.push(G);
+      rgHist[Math.min(bins - 1, Math.round((dr[j] / dg[j]) * RATIO_SCALE))] += G;
+      bgHist[Math.min(bins - 1, Math.round((db[j] / dg[j]) * RATIO_SCALE))] += G;
+      depthHist[Math.min(60, Math.round(G * 20))]++;
+      count++;
       if (G > depth) depth = G;
     }
-    if (rg.length < 30) break;
-    const kr = weightedMedian(rg, wt);
-    const kb = weightedMedian(bg, wt);
+    if (count < 30) break;
+    const kr = histogramMedian(rgHist) / RATIO_SCALE;
+    const kb = histogramMedian(bgHist) / RATIO_SCALE;
     const top = Math.max(kr, 1, kb);
     k = [kr / top, 1 / top, kb / top];
-    last = { retention: k, share: rg.length / Math.max(1, total), depth };
+    // a grey scale spans densities; one patch of a single colour that happens to look neutral does not
+    const at = (p: number) => {
+      let acc = 0;
+      for (let b = 0; b < depthHist.length; b++) if ((acc += depthHist[b]) >= p * count) return b / 20;
+      return 3;
+    };
+    last = { retention: k, share: count / Math.max(1, total), depth, spread: at(0.9) - at(0.1) };
   }
   return last;
+}
+
+/** Density ratios between channels are binned at 1/2000 up to 4. */
+const RATIO_SCALE = 2000;
+const RATIO_BINS = 4 * RATIO_SCALE + 1;
+
+function histogramMedian(h: Float64Array): number {
+  let total = 0;
+  for (let i = 0; i < h.length; i++) total += h[i];
+  let acc = 0;
+  for (let i = 0; i < h.length; i++) {
+    acc += h[i];
+    if (acc >= total / 2) return i;
+  }
+  return h.length - 1;
 }
 
 function sceneVariety(v: Uint8Array, ch: number, w: number, inner: Rect, paperD: Triplet, retention: Triplet): { variety: number; neutralShare: number } {
@@ -487,9 +521,13 @@ export function analysePixels(reduced: ReducedPixels): Analysis {
   const fit = fitOnNeutrals(v, ch, w, inner, paperD, firstGuess);
   const retention = fit?.retention ?? firstGuess;
   // trust grows with the share of near-neutral pixels and with how deep they reach
-  const neutralTrust = fit ? clamp(fit.share / 0.02, 0, 1) * clamp(fit.depth / 1.0, 0, 1) : 0;
+  // and shrinks when the neutrals tell a very different story from the shadows
+  const disagreement = fit ? Math.max(...fit.retention.map((k, c) => Math.abs(k - firstGuess[c]))) : 0;
+  const neutralTrust = fit
+    ? clamp(fit.share / 0.02, 0, 1) * clamp(fit.depth / 1.0, 0, 1) * clamp(fit.spread / 0.6, 0, 1) * clamp(1 - (disagreement - 0.1) / 0.2, 0.3, 1)
+    : 0;
   const dyeConfidence = [0, 1, 2].map((c) => {
-    const fallback = fullness * clamp(1 - Math.abs(shadowRetentions[0][c] - shadowRetentions[1][c]) / 0.1, 0, 1) * 0.5;
+    const fallback = fullness * clamp(1 - Math.abs(shadowRetentions[0][c] - shadowRetentions[1][c]) / 0.1, 0, 1) * 0.3;
     return clamp(Math.max(neutralTrust * (0.6 + 0.4 * fullness), fallback), 0, 1);
   }) as Triplet;
 
@@ -537,7 +575,8 @@ export function poolAnalyses(analyses: Analysis[], threshold = POOL_CONFIDENCE):
   const refStain = dyeKeys.map((k) => weightedMedian(donors.map((a) => a.dyes[k].stainDensity), weights)) as Triplet;
   return analyses.map((a) => {
     if (a.confidence >= threshold || (trusted.length === 0 && donors.length < 2)) return a;
-    const own = clamp(a.confidence / threshold, 0, 1);
+    // below POOL_FLOOR a print's own estimate counts for nothing; between it and the threshold, in proportion
+    const own = clamp((a.confidence - POOL_FLOOR) / (threshold - POOL_FLOOR), 0, 1);
     const siblings = trusted.length > 0 ? trusted.length : donors.length - 1;
     const retention = dyeKeys.map((k, i) => own * (a.dyes[k].remainingPercent / 100) + (1 - own) * refRetention[i]) as Triplet;
     const stain = dyeKeys.map((k, i) => own * a.dyes[k].stainDensity + (1 - own) * refStain[i]) as Triplet;

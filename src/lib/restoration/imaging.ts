@@ -192,36 +192,20 @@ export async function loadFull(input: string | Buffer, limits?: Partial<ScanLimi
 }
 
 /**
- * Box-averages full pixels down to at most `longSide` on the long side (integer factor), as
- * 8-bit: the analysis copy, without a second decode.
+ * The analysis copy from pixels already decoded: a libvips resize of the raw buffer, which runs
+ * off the JavaScript thread and costs less than a second, shrink-on-load decode of the file
+ * (tests/bench/engine.ts measures both).
  */
-export function reduceInMemory(full: ReducedPixels, longSide = 1280): ReducedPixels {
-  const f = Math.max(1, Math.ceil(Math.max(full.width, full.height) / longSide));
-  const w = Math.max(1, Math.floor(full.width / f));
-  const h = Math.max(1, Math.floor(full.height / f));
-  const ch = full.channels;
-  const out = new Uint8Array(w * h * 3);
-  const src = full.data;
-  const shift = full.depth === 16 ? 8 : 0;
-  const acc = new Float64Array(w * 3);
-  const norm = 1 / (f * f);
-  for (let y = 0; y < h; y++) {
-    acc.fill(0);
-    for (let dy = 0; dy < f; dy++) {
-      let i = ((y * f + dy) * full.width) * ch;
-      for (let x = 0; x < w; x++) {
-        const o = x * 3;
-        for (let dx = 0; dx < f; dx++, i += ch) {
-          acc[o] += src[i];
-          acc[o + 1] += src[i + 1];
-          acc[o + 2] += src[i + 2];
-        }
-      }
-    }
-    const row = y * w * 3;
-    for (let k = 0; k < w * 3; k++) out[row + k] = Math.round((acc[k] * norm) / (1 << shift)) & 0xff;
-  }
-  return { data: out, width: w, height: h, channels: 3, depth: 8 };
+export async function deriveReduced(full: ReducedPixels, longSide = 1280): Promise<ReducedPixels> {
+  // libvips takes raw 16-bit input as plain numbers, not as rgb16: narrow to 8 bits first
+  const src = narrowTo8(full);
+  if (Math.max(src.width, src.height) <= longSide) return src;
+  const { data, info } = await rawImage(src)
+    .resize({ width: longSide, height: longSide, fit: 'inside', withoutEnlargement: true })
+    .toColourspace('srgb')
+    .raw({ depth: 'uchar' })
+    .toBuffer({ resolveWithObject: true });
+  return { data: new Uint8Array(data.buffer, data.byteOffset, data.length), width: info.width, height: info.height, channels: info.channels, depth: 8 };
 }
 
 /** Decodes a reduced copy and measures the print. @throws {ScanRejected} */
@@ -276,14 +260,104 @@ export interface RenderResult {
   previews?: { original: PreviewSet; corrected: PreviewSet };
 }
 
+let srgbProfile: Promise<Buffer> | null = null;
+
+/** libvips' own sRGB profile, fetched once from a 1x1 render. */
+function srgbIcc(): Promise<Buffer> {
+  srgbProfile ??= sharp({ create: { width: 1, height: 1, channels: 3, background: '#ffffff' } })
+    .withIccProfile('srgb')
+    .jpeg()
+    .toBuffer()
+    .then((b) => sharp(b).metadata())
+    .then((m) => {
+      if (!m.icc) throw new Error('libvips produced no sRGB profile');
+      return m.icc;
+    });
+  return srgbProfile;
+}
+
+/**
+ * Adds an ICC APP2 segment to a JPEG whose pixels are already sRGB. Asking libvips to attach the
+ * profile instead runs a colour transform over every pixel, from sRGB to the same sRGB.
+ */
+function embedIcc(jpeg: Buffer, icc: Buffer): Buffer {
+  const head = Buffer.from('ICC_PROFILE\0', 'latin1');
+  if (icc.length + head.length + 2 + 2 > 0xffff) throw new Error('ICC profile too large for one APP2 segment');
+  const seg = Buffer.alloc(4 + head.length + 2 + icc.length);
+  seg[0] = 0xff;
+  seg[1] = 0xe2;
+  seg.writeUInt16BE(seg.length - 2, 2);
+  head.copy(seg, 4);
+  seg[4 + head.length] = 1; // segment 1 of 1
+  seg[5 + head.length] = 1;
+  icc.copy(seg, 6 + head.length);
+  // after SOI and the JFIF/EXIF segments, before the image data
+  let at = 2;
+  while (at + 4 <= jpeg.length && jpeg[at] === 0xff && (jpeg[at + 1] === 0xe0 || jpeg[at + 1] === 0xe1)) at += 2 + jpeg.readUInt16BE(at + 2);
+  return Buffer.concat([jpeg.subarray(0, at), seg, jpeg.subarray(at)]);
+}
+
+/**
+ * Records the scan's resolution in the JPEG: a JFIF APP0 segment in front, and the EXIF IFD0
+ * resolution tags rewritten when libvips wrote them. libvips takes resolution from the image,
+ * and pixels handed over raw have none; asking it to set one brings the needless colour
+ * transform of withMetadata() along.
+ */
+function stampResolution(jpeg: Buffer, dpi: number): Buffer {
+  const d = Math.max(1, Math.min(65535, Math.round(dpi)));
+  let at = 2;
+  while (at + 4 <= jpeg.length && jpeg[at] === 0xff && jpeg[at + 1] >= 0xe0 && jpeg[at + 1] <= 0xef) {
+    const len = jpeg.readUInt16BE(at + 2);
+    if (jpeg[at + 1] === 0xe1 && jpeg.toString('latin1', at + 4, at + 10) === 'Exif\0\0') patchExifResolution(jpeg, at + 10, at + 2 + len, d);
+    at += 2 + len;
+  }
+  if (jpeg[2] === 0xff && jpeg[3] === 0xe0) return jpeg;
+  const jfif = Buffer.from([0xff, 0xe0, 0x00, 0x10, 0x4a, 0x46, 0x49, 0x46, 0x00, 0x01, 0x02, 0x01, d >> 8, d & 0xff, d >> 8, d & 0xff, 0x00, 0x00]);
+  return Buffer.concat([jpeg.subarray(0, 2), jfif, jpeg.subarray(2)]);
+}
+
+function patchExifResolution(buf: Buffer, tiff: number, end: number, dpi: number): void {
+  const le = buf.toString('latin1', tiff, tiff + 2) === 'II';
+  const u16 = (o: number) => (le ? buf.readUInt16LE(o) : buf.readUInt16BE(o));
+  const u32 = (o: number) => (le ? buf.readUInt32LE(o) : buf.readUInt32BE(o));
+  const w32 = (o: number, v: number) => (le ? buf.writeUInt32LE(v, o) : buf.writeUInt32BE(v, o));
+  const w16 = (o: number, v: number) => (le ? buf.writeUInt16LE(v, o) : buf.writeUInt16BE(v, o));
+  const ifd = tiff + u32(tiff + 4);
+  if (ifd + 2 > end) return;
+  const n = u16(ifd);
+  for (let k = 0; k < n; k++) {
+    const e = ifd + 2 + k * 12;
+    if (e + 12 > end) return;
+    const tag = u16(e);
+    const type = u16(e + 2);
+    if ((tag === 0x011a || tag === 0x011b) && type === 5) {
+      const off = tiff + u32(e + 8);
+      if (off + 8 <= end) {
+        w32(off, dpi);
+        w32(off + 4, 1);
+      }
+    } else if (tag === 0x0128 && type === 3) {
+      w16(e + 8, 2); // inches
+    }
+  }
+}
+
 function rawImage(p: ReducedPixels): sharp.Sharp {
   const bytes = Buffer.from(p.data.buffer, p.data.byteOffset, p.data.byteLength);
   const raw = { width: p.width, height: p.height, channels: p.channels as 3 | 4 };
   return p.depth === 16 ? sharp(bytes, { raw: { ...raw, depth: 'ushort' as const } } as sharp.SharpOptions) : sharp(bytes, { raw });
 }
 
-async function previewSet(p: ReducedPixels, sizes: RenderOptions['previews']): Promise<PreviewSet> {
+function narrowTo8(p: ReducedPixels): ReducedPixels {
+  if (p.depth === 8) return p;
+  const narrow = new Uint8Array(p.data.length);
+  for (let i = 0; i < narrow.length; i++) narrow[i] = p.data[i] >> 8;
+  return { ...p, data: narrow, depth: 8 };
+}
+
+async function previewSet(pixels: ReducedPixels, sizes: RenderOptions['previews']): Promise<PreviewSet> {
   const out: PreviewSet = {};
+  const p = narrowTo8(pixels);
   const make = (side: number) =>
     rawImage(p).resize({ width: side, height: side, fit: 'inside', withoutEnlargement: true }).toColourspace('srgb').jpeg({ quality: 82 }).toBuffer();
   if (sizes?.preview) out.preview = await make(sizes.preview);
@@ -302,12 +376,16 @@ async function renderFromFull(full: FullPixels, file: Buffer | null, correction:
     src = { data: full.depth === 16 ? new Uint16Array(Buffer.from(data).buffer) : new Uint8Array(data), width: info.width, height: info.height, channels: info.channels, depth: full.depth };
   }
   const luts = buildChannelLuts(c, src.depth, 8);
-  const corrected: ReducedPixels = { data: applyCorrection(src.data, src.channels, luts) as Uint8Array, width: src.width, height: src.height, channels: src.channels, depth: 8 };
-  let out = rawImage(corrected).withIccProfile('srgb');
-  if (full.probe.density) out = out.withMetadata({ density: full.probe.density });
+  // 8-bit pixels are corrected in place unless the originals are still wanted for previews
+  const inPlace = src.depth === 8 && !options.previews;
+  const data = applyCorrection(src.data, src.channels, luts, inPlace ? src.data : undefined) as Uint8Array;
+  const corrected: ReducedPixels = { data, width: src.width, height: src.height, channels: src.channels, depth: 8 };
+  let out = rawImage(corrected);
   const exif = file ? meaningfulExif(file) : {};
   if (Object.keys(exif).length > 0) out = out.withExif(exif);
-  const buffer = await out.jpeg({ quality: options.quality ?? 92, chromaSubsampling: '4:2:0' }).toBuffer();
+  const [encoded, icc] = await Promise.all([out.jpeg({ quality: options.quality ?? 92 }).toBuffer(), srgbIcc()]);
+  const withIcc = embedIcc(encoded, icc);
+  const buffer = full.probe.density ? stampResolution(withIcc, full.probe.density) : withIcc;
   const result: RenderResult = { buffer, width: corrected.width, height: corrected.height };
   if (options.previews && (options.previews.preview || options.previews.thumbnail)) {
     const [original, correctedSet] = await Promise.all([previewSet(src, options.previews), previewSet(corrected, options.previews)]);
@@ -363,7 +441,7 @@ export async function analyseAndRender(input: string | Buffer, options: AnalyseA
   const file = await asBuffer(input);
   const probe = await probeScan(file, options.limits);
   const full = await loadFull(file, options.limits, probe);
-  const analysis = analysePixels(reduceInMemory(full, options.analysisSide ?? 1280));
+  const analysis = analysePixels(await deriveReduced(full, options.analysisSide ?? 1280));
   const base = options.correction ?? analysis.proposed;
   const correction = { ...base, strength: options.strength ?? base.strength };
   const render = await renderFromFull(full, file, correction, options);

@@ -195,8 +195,11 @@ describe('unusual but valid scans', () => {
   it('reads a 16-bit TIFF and renders it to an 8-bit JPEG', async () => {
     const tiff = await encodeScene(generateScene({ width: 300, height: 200, border: true }), { format: 'tiff', sixteenBit: true });
     expect((await probeScan(tiff)).bitsPerChannel).toBe(16);
-    const r = await analyseAndRender(tiff);
+    const r = await analyseAndRender(tiff, { previews: { thumbnail: 64 } });
     expect(r.analysis.fadeGrade).toBe('none');
+    // the thumbnail of a 16-bit scan keeps its tones (a wrong cast would clip it to white)
+    const stats = await sharp(r.previews!.original.thumbnail!).stats();
+    expect(stats.channels[0].mean).toBeLessThan(200);
     expect(r.analysis.paperBase.method).toBe('border');
     expect([r.width, r.height]).toEqual([300, 200]);
   });

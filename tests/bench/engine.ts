@@ -1,0 +1,130 @@
+/**
+ * Engine benchmark (`npm run bench`): prints figures, asserts nothing.
+ * 12 generated 3600x2400 scans (6x4 in at 600 dpi, invented scenes and ageing). Measures, in one
+ * run and single-threaded: a bare sharp decode -> JPEG q92 encode (the floor), the analysis, the
+ * render, and the analysis copy made by shrink-on-load versus from a full decode in memory; then
+ * the whole `correct` command line as a child process (wall time and peak RSS).
+ * Ends with `cli_ratio_to_bare: <x>` and `peak_rss_mb: <n>`.
+ */
+import { spawn } from 'node:child_process';
+import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import sharp from 'sharp';
+import { AGEING_MODELS, agePixels, encodeScene, generateScene, type Ageing } from '../../src/lib/demo/synthetic';
+import { analyseScan, loadFull, loadReduced, deriveReduced, renderCorrected, analyseAndRender } from '../../src/lib/restoration/imaging';
+import { analysePixels } from '../../src/lib/restoration/analysis';
+
+const ROOT = fileURLToPath(new URL('../..', import.meta.url));
+const JEMALLOC = '/usr/lib/x86_64-linux-gnu/libjemalloc.so.2';
+const WIDTH = 3600;
+const HEIGHT = 2400;
+
+sharp.cache(false);
+sharp.concurrency(1);
+
+const work = mkdtempSync(join(tmpdir(), 'drawerlight-bench-'));
+const files: string[] = [];
+
+async function generate(): Promise<void> {
+  const t0 = performance.now();
+  const scenes = [
+    generateScene({ width: WIDTH, height: HEIGHT, border: true, seed: 1 }),
+    generateScene({ width: WIDTH, height: HEIGHT, border: false, seed: 2 }),
+    generateScene({ width: WIDTH, height: HEIGHT, border: true, monochrome: true, seed: 3 }),
+  ];
+  const ageings: Ageing[][] = [
+    [AGEING_MODELS.none(), AGEING_MODELS.darkStorage(0.5), AGEING_MODELS.darkStorage(1), AGEING_MODELS.lightFaded(1)],
+    [AGEING_MODELS.none(), AGEING_MODELS.darkStorage(1), AGEING_MODELS.lightFaded(0.5), AGEING_MODELS.lightFaded(1)],
+    [AGEING_MODELS.none(), AGEING_MODELS.yellowedMonochrome(0.5), AGEING_MODELS.yellowedMonochrome(1), AGEING_MODELS.yellowedMonochrome(0.8)],
+  ];
+  for (let s = 0; s < scenes.length; s++) {
+    for (let a = 0; a < ageings[s].length; a++) {
+      const p = join(work, `scan-${s}${a}.jpg`);
+      writeFileSync(p, await encodeScene(agePixels(scenes[s], ageings[s][a]), { format: 'jpeg', quality: 92 }));
+      files.push(p);
+    }
+  }
+  console.log(`generated ${files.length} scans of ${WIDTH}x${HEIGHT} in ${((performance.now() - t0) / 1000).toFixed(1)} s (not counted)`);
+}
+
+/** Mean ms per file of `fn`, run over every file in turn, after one warm-up call. */
+async function perScan(label: string, fn: (file: string, bytes: Buffer) => Promise<unknown>): Promise<number> {
+  const bytes = files.map((f) => readFileSync(f));
+  await fn(files[0], bytes[0]);
+  const t0 = performance.now();
+  for (let i = 0; i < files.length; i++) await fn(files[i], bytes[i]);
+  const ms = (performance.now() - t0) / files.length;
+  console.log(`${label.padEnd(48)} ${ms.toFixed(1).padStart(7)} ms/scan`);
+  return ms;
+}
+
+/** Runs the command line as a child process, polling its peak RSS (VmHWM) from /proc. */
+function runCli(out: string, preload: boolean): Promise<{ ms: number; peakMb: number; code: number | null; stderr: string }> {
+  return new Promise((resolvePromise) => {
+    const env = { ...process.env };
+    if (preload) env.LD_PRELOAD = JEMALLOC;
+    const t0 = performance.now();
+    const child = spawn(process.execPath, ['--import', 'tsx', join(ROOT, 'src/scripts/correct.ts'), '--out', out, ...files], { cwd: ROOT, env, stdio: ['ignore', 'ignore', 'pipe'] });
+    let stderr = '';
+    child.stderr.on('data', (d) => (stderr += d));
+    let peakKb = 0;
+    const poll = setInterval(() => {
+      try {
+        const m = /VmHWM:\s+(\d+) kB/.exec(readFileSync(`/proc/${child.pid}/status`, 'utf8'));
+        if (m) peakKb = Math.max(peakKb, Number(m[1]));
+      } catch {
+        // process already gone
+      }
+    }, 20);
+    child.on('exit', (code) => {
+      clearInterval(poll);
+      resolvePromise({ ms: performance.now() - t0, peakMb: peakKb / 1024, code, stderr });
+    });
+  });
+}
+
+async function main(): Promise<void> {
+  await generate();
+  console.log('\nin process, one libvips thread, one scan at a time:');
+  const bare = await perScan('bare decode -> JPEG q92 encode', (f) => sharp(f).jpeg({ quality: 92 }).toBuffer());
+  const decodeOnly = await perScan('full decode to raw (oriented, sRGB)', (_, b) => loadFull(b));
+  const shrink = await perScan('analysis copy by shrink-on-load decode', (_, b) => loadReduced(b, 1280));
+  const full = await loadFull(readFileSync(files[0]));
+  const derive = await perScan('analysis copy derived from the full decode', () => deriveReduced(full, 1280));
+  const reduced = await deriveReduced(full, 1280);
+  const pure = await perScan(`analysePixels alone (${reduced.width}x${reduced.height} copy)`, async () => analysePixels(reduced));
+  const analysis = await perScan('analyseScan (shrink-on-load + analysis)', (_, b) => analyseScan(b));
+  const corrections = await Promise.all(files.map((f) => analyseScan(f).then((a) => a.proposed)));
+  let k = 0;
+  const render = await perScan('renderCorrected (decode, correct, encode)', (_, b) => renderCorrected(b, corrections[k++ % files.length]));
+  const both = await perScan('analyseAndRender (one decode for both)', (_, b) => analyseAndRender(b));
+  const inProcessPeak = process.resourceUsage().maxRSS / 1024;
+
+  console.log('\nratios to the bare decode -> encode:');
+  console.log(`analysis_ratio_to_bare: ${(analysis / bare).toFixed(3)}`);
+  console.log(`render_ratio_to_bare: ${(render / bare).toFixed(3)}`);
+  console.log(`analyse_and_render_ratio_to_bare: ${(both / bare).toFixed(3)}`);
+  console.log(`decode_only_ms: ${decodeOnly.toFixed(1)}; analysis copy: shrink-on-load ${shrink.toFixed(1)} ms vs derived in memory ${derive.toFixed(1)} ms (${derive < shrink ? 'derived is cheaper' : 'shrink-on-load is cheaper'}); analysePixels ${pure.toFixed(1)} ms`);
+  console.log(`bench_process_peak_rss_mb: ${inProcessPeak.toFixed(0)}`);
+
+  const preload = existsSync(JEMALLOC);
+  console.log(`\ncommand line, ${files.length} scans, two at a time${preload ? ', LD_PRELOAD=jemalloc' : ''}:`);
+  const out = join(work, 'out');
+  const cli = await runCli(out, preload);
+  if (cli.code !== 0) console.log(`command line exited ${cli.code}:\n${cli.stderr}`);
+  const report = JSON.parse(readFileSync(join(out, 'report.json'), 'utf8')) as { scans: { fadeGrade: string }[] };
+  console.log(`grades: ${report.scans.map((s) => s.fadeGrade).join(', ')}`);
+  console.log(`cli_wall_ms: ${cli.ms.toFixed(0)} (${(cli.ms / files.length).toFixed(1)} ms/scan, process start included)`);
+  console.log(`bare_single_thread_ms_total: ${(bare * files.length).toFixed(0)}`);
+  rmSync(work, { recursive: true, force: true });
+  console.log(`cli_ratio_to_bare: ${(cli.ms / (bare * files.length)).toFixed(3)}`);
+  console.log(`peak_rss_mb: ${Math.round(cli.peakMb)}`);
+}
+
+main().catch((err) => {
+  console.error(err);
+  rmSync(work, { recursive: true, force: true });
+  process.exit(1);
+});
