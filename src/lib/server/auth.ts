@@ -59,10 +59,10 @@ export function getAuthConfig(): AuthConfig {
     callbacks: {
       async signIn({ user, email }) {
         // Links go only to people who already have an account (an owner invites the rest).
-        // The same "link sent" page answers either way, so nobody learns who has an account.
+        // The same redirect as a sent link answers either way, so nobody learns who has an account.
         if (email?.verificationRequest) {
           const known = user.email ? await User.findOne({ where: { email: user.email.toLowerCase() } }) : null;
-          return known ? true : '/signin?link=sent';
+          return known ? true : `${c.appUrl}${AUTH_BASE_PATH}/verify-request?provider=nodemailer&type=email`;
         }
         return true;
       },
