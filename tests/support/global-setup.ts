@@ -31,6 +31,7 @@ export async function setup() {
 }
 
 export async function teardown() {
+  if (!process.env.DRAWERLIGHT_TEST_RUN) return;
   await stopRecordedWorkers();
   await Promise.all(procs.map((p) => p.stop()));
 }
