@@ -12,11 +12,16 @@ import { Batch } from './models/Batch.ts';
 import { Original } from './models/Original.ts';
 import { Item } from './models/Item.ts';
 import { Correction } from './models/Correction.ts';
+import { Person } from './models/Person.ts';
+import { ItemPerson } from './models/ItemPerson.ts';
+import { Suggestion } from './models/Suggestion.ts';
+import { ArchiveExport } from './models/ArchiveExport.ts';
 
 export { User, Archive, Membership, Invitation, ApiToken, AuditEvent, VerificationToken, Batch, Original, Item, Correction };
+export { Person, ItemPerson, Suggestion, ArchiveExport };
 
 /** Every model, in the order they are initialised. New models join this list. */
-const MODELS = [User, Archive, Membership, Invitation, ApiToken, AuditEvent, VerificationToken, Batch, Original, Item, Correction];
+const MODELS = [User, Archive, Membership, Invitation, ApiToken, AuditEvent, VerificationToken, Batch, Original, Item, Correction, Person, ItemPerson, Suggestion, ArchiveExport];
 
 function associate() {
   Membership.belongsTo(User, { foreignKey: 'userId', as: 'user' });
@@ -31,6 +36,12 @@ function associate() {
   Item.belongsTo(Original, { foreignKey: 'originalId', as: 'original' });
   Item.hasMany(Correction, { foreignKey: 'itemId', as: 'corrections' });
   Correction.belongsTo(Item, { foreignKey: 'itemId', as: 'item' });
+  Item.belongsTo(Original, { foreignKey: 'printOriginalId', as: 'printOriginal' });
+  Item.belongsToMany(Person, { through: ItemPerson, foreignKey: 'itemId', otherKey: 'personId', as: 'people' });
+  Person.belongsToMany(Item, { through: ItemPerson, foreignKey: 'personId', otherKey: 'itemId', as: 'items' });
+  Item.hasMany(Suggestion, { foreignKey: 'itemId', as: 'suggestions' });
+  Suggestion.belongsTo(Item, { foreignKey: 'itemId', as: 'item' });
+  Suggestion.belongsTo(User, { foreignKey: 'suggestedBy', as: 'suggester' });
 }
 
 let instance: Sequelize | undefined;

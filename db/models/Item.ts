@@ -30,6 +30,14 @@ export class Item extends Model<InferAttributes<Item>, InferCreationAttributes<I
   declare negativeAvailable: CreationOptional<NegativeAvailability | null>;
   declare negativeLocation: CreationOptional<string | null>;
   declare rescanNote: CreationOptional<string | null>;
+  declare caption: CreationOptional<string | null>;
+  declare dateEdtf: CreationOptional<string | null>;
+  declare place: CreationOptional<string | null>;
+  declare backText: CreationOptional<string | null>;
+  declare envelope: CreationOptional<string | null>;
+  /** The first print scan, kept when a rescan from the negative became the current original. */
+  declare printOriginalId: CreationOptional<string | null>;
+  declare metadataUpdatedAt: CreationOptional<Date | null>;
   declare lockVersion: CreationOptional<number>;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
@@ -58,6 +66,13 @@ export class Item extends Model<InferAttributes<Item>, InferCreationAttributes<I
         negativeAvailable: DataTypes.ENUM(...NEGATIVE_AVAILABILITY),
         negativeLocation: DataTypes.STRING(300),
         rescanNote: DataTypes.TEXT,
+        caption: DataTypes.TEXT,
+        dateEdtf: DataTypes.STRING(100),
+        place: DataTypes.STRING(300),
+        backText: DataTypes.TEXT,
+        envelope: DataTypes.STRING(300),
+        printOriginalId: DataTypes.UUID,
+        metadataUpdatedAt: DataTypes.DATE,
         lockVersion: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,

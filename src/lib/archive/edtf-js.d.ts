@@ -1,9 +1,9 @@
 /** The few parts of the `edtf` package (EDTF.js, untyped) that Drawerlight reads. */
 declare module 'edtf' {
-  interface Bitmask {
+  export interface Bitmask {
     value: number;
   }
-  interface EdtfValue {
+  export interface EdtfValue {
     type: 'Date' | 'Year' | 'Decade' | 'Century' | 'Season' | 'Interval' | 'List' | 'Set';
     edtf: string;
     min: number | null;
@@ -21,5 +21,7 @@ declare module 'edtf' {
     century?: number;
   }
   function edtf(input: string, constraints?: Record<string, unknown>): EdtfValue;
+  /** Parses without building the date object; throws on text that is not EDTF. */
+  export function parse(input: string, constraints?: Record<string, unknown>): { type: string; values: unknown[] };
   export default edtf;
 }

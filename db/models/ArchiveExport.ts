@@ -1,0 +1,66 @@
+import { DataTypes, Model, type CreationOptional, type InferAttributes, type InferCreationAttributes, type Sequelize } from 'sequelize';
+
+export const EXPORT_STATES = ['queued', 'running', 'ready', 'failed'] as const;
+export type ExportState = (typeof EXPORT_STATES)[number];
+
+/** What an export takes: chosen prints, one batch, or everything accepted since the last export. */
+export type ExportSelection = { kind: 'items'; itemIds: string[] } | { kind: 'batch'; batchId: string } | { kind: 'since_last' };
+
+export interface ExportOptions {
+  includeOriginals?: boolean;
+  namePattern?: string;
+}
+
+/** One export of an archive as a BagIt zip, with its progress and the result of its fixity check. */
+export class ArchiveExport extends Model<InferAttributes<ArchiveExport>, InferCreationAttributes<ArchiveExport>> {
+  declare id: CreationOptional<string>;
+  declare archiveId: string;
+  declare requestedBy: string | null;
+  declare selection: ExportSelection;
+  declare options: CreationOptional<ExportOptions>;
+  declare state: CreationOptional<ExportState>;
+  declare itemIds: CreationOptional<string[]>;
+  declare progressDone: CreationOptional<number>;
+  declare progressTotal: CreationOptional<number>;
+  declare zipKey: CreationOptional<string | null>;
+  declare zipBytes: CreationOptional<number | null>;
+  declare zipSha256: CreationOptional<string | null>;
+  declare verifiedAt: CreationOptional<Date | null>;
+  declare failureReason: CreationOptional<string | null>;
+  declare startedAt: CreationOptional<Date | null>;
+  declare finishedAt: CreationOptional<Date | null>;
+  declare createdAt: CreationOptional<Date>;
+  declare updatedAt: CreationOptional<Date>;
+
+  static initModel(sequelize: Sequelize) {
+    ArchiveExport.init(
+      {
+        id: { type: DataTypes.UUID, primaryKey: true, defaultValue: DataTypes.UUIDV4 },
+        archiveId: { type: DataTypes.UUID, allowNull: false },
+        requestedBy: DataTypes.UUID,
+        selection: { type: DataTypes.JSONB, allowNull: false },
+        options: { type: DataTypes.JSONB, allowNull: false, defaultValue: {} },
+        state: { type: DataTypes.ENUM(...EXPORT_STATES), allowNull: false, defaultValue: 'queued' },
+        itemIds: { type: DataTypes.JSONB, allowNull: false, defaultValue: [] },
+        progressDone: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
+        progressTotal: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
+        zipKey: DataTypes.STRING(300),
+        zipBytes: {
+          type: DataTypes.BIGINT,
+          get(this: ArchiveExport) {
+            const v = this.getDataValue('zipBytes');
+            return v === null || v === undefined ? null : Number(v);
+          },
+        },
+        zipSha256: DataTypes.STRING(64),
+        verifiedAt: DataTypes.DATE,
+        failureReason: DataTypes.TEXT,
+        startedAt: DataTypes.DATE,
+        finishedAt: DataTypes.DATE,
+        createdAt: DataTypes.DATE,
+        updatedAt: DataTypes.DATE,
+      },
+      { sequelize, tableName: 'exports', modelName: 'archiveExport', underscored: true },
+    );
+  }
+}

@@ -1,0 +1,44 @@
+import { DataTypes, Model, type CreationOptional, type InferAttributes, type InferCreationAttributes, type Sequelize } from 'sequelize';
+
+export const SUGGESTION_STATES = ['pending', 'accepted', 'declined'] as const;
+export type SuggestionState = (typeof SUGGESTION_STATES)[number];
+
+/** A viewer's suggested caption, date, place or people for one print, until an editor decides. */
+export class Suggestion extends Model<InferAttributes<Suggestion>, InferCreationAttributes<Suggestion>> {
+  declare id: CreationOptional<string>;
+  declare archiveId: string;
+  declare itemId: string;
+  declare suggestedBy: string | null;
+  declare caption: CreationOptional<string | null>;
+  declare dateEdtf: CreationOptional<string | null>;
+  declare place: CreationOptional<string | null>;
+  declare people: CreationOptional<string[] | null>;
+  declare note: CreationOptional<string | null>;
+  declare state: CreationOptional<SuggestionState>;
+  declare decidedBy: CreationOptional<string | null>;
+  declare decidedAt: CreationOptional<Date | null>;
+  declare createdAt: CreationOptional<Date>;
+  declare updatedAt: CreationOptional<Date>;
+
+  static initModel(sequelize: Sequelize) {
+    Suggestion.init(
+      {
+        id: { type: DataTypes.UUID, primaryKey: true, defaultValue: DataTypes.UUIDV4 },
+        archiveId: { type: DataTypes.UUID, allowNull: false },
+        itemId: { type: DataTypes.UUID, allowNull: false },
+        suggestedBy: DataTypes.UUID,
+        caption: DataTypes.TEXT,
+        dateEdtf: DataTypes.STRING(100),
+        place: DataTypes.STRING(300),
+        people: DataTypes.JSONB,
+        note: DataTypes.TEXT,
+        state: { type: DataTypes.ENUM(...SUGGESTION_STATES), allowNull: false, defaultValue: 'pending' },
+        decidedBy: DataTypes.UUID,
+        decidedAt: DataTypes.DATE,
+        createdAt: DataTypes.DATE,
+        updatedAt: DataTypes.DATE,
+      },
+      { sequelize, tableName: 'suggestions', modelName: 'suggestion', underscored: true },
+    );
+  }
+}
