@@ -146,6 +146,61 @@ export class CorrectionInputError extends Error {
   }
 }
 
+// One monomorphic loop per array type: V8 keeps each fast, where a shared loop over mixed
+// array types runs at about half speed. Four pixels per turn.
+function map8(src: Uint8Array, dst: Uint8Array, r: Uint8Array, g: Uint8Array, b: Uint8Array): void {
+  const n = src.length;
+  let i = 0;
+  for (const m = n - 12; i <= m; i += 12) {
+    dst[i] = r[src[i]];
+    dst[i + 1] = g[src[i + 1]];
+    dst[i + 2] = b[src[i + 2]];
+    dst[i + 3] = r[src[i + 3]];
+    dst[i + 4] = g[src[i + 4]];
+    dst[i + 5] = b[src[i + 5]];
+    dst[i + 6] = r[src[i + 6]];
+    dst[i + 7] = g[src[i + 7]];
+    dst[i + 8] = b[src[i + 8]];
+    dst[i + 9] = r[src[i + 9]];
+    dst[i + 10] = g[src[i + 10]];
+    dst[i + 11] = b[src[i + 11]];
+  }
+  for (; i < n; i += 3) {
+    dst[i] = r[src[i]];
+    dst[i + 1] = g[src[i + 1]];
+    dst[i + 2] = b[src[i + 2]];
+  }
+}
+
+function map16(src: Uint16Array, dst: Uint8Array, r: Uint8Array, g: Uint8Array, b: Uint8Array): void {
+  for (let i = 0; i < src.length; i += 3) {
+    dst[i] = r[src[i]];
+    dst[i + 1] = g[src[i + 1]];
+    dst[i + 2] = b[src[i + 2]];
+  }
+}
+
+function mapAny(data: ArrayLike<number>, channels: number, luts: ChannelLuts, dest: Uint8Array | Uint8ClampedArray | Uint16Array): void {
+  const { red, green, blue } = luts;
+  const n = data.length;
+  if (channels === 3) {
+    for (let i = 0; i < n; i += 3) {
+      dest[i] = red[data[i]];
+      dest[i + 1] = green[data[i + 1]];
+      dest[i + 2] = blue[data[i + 2]];
+    }
+    return;
+  }
+  const alphaShift = luts.inDepth === luts.outDepth ? 0 : luts.inDepth === 16 ? 8 : -8;
+  for (let i = 0; i < n; i += 4) {
+    dest[i] = red[data[i]];
+    dest[i + 1] = green[data[i + 1]];
+    dest[i + 2] = blue[data[i + 2]];
+    const a = data[i + 3];
+    dest[i + 3] = alphaShift > 0 ? a >> 8 : alphaShift < 0 ? a * 257 : a;
+  }
+}
+
 /**
  * Applies the tables to interleaved RGB or RGBA pixels (alpha passes through).
  * @param out destination; pass `data` itself to correct in place. Allocated when omitted.
@@ -162,23 +217,12 @@ export function applyCorrection<T extends Uint8Array | Uint8ClampedArray | Uint1
   if (data.length % channels !== 0) throw new CorrectionInputError('pixel buffer length is not a whole number of pixels');
   const dest = out ?? (luts.outDepth === 8 ? new Uint8Array(data.length) : new Uint16Array(data.length));
   if (dest.length < data.length) throw new CorrectionInputError('destination buffer is too small');
-  const { red, green, blue } = luts;
-  const n = data.length;
-  if (channels === 3) {
-    for (let i = 0; i < n; i += 3) {
-      dest[i] = red[data[i]];
-      dest[i + 1] = green[data[i + 1]];
-      dest[i + 2] = blue[data[i + 2]];
-    }
+  if (channels === 3 && dest instanceof Uint8Array && luts.red instanceof Uint8Array && luts.green instanceof Uint8Array && luts.blue instanceof Uint8Array) {
+    if (data instanceof Uint8Array) map8(data, dest, luts.red, luts.green, luts.blue);
+    else if (data instanceof Uint16Array) map16(data, dest, luts.red, luts.green, luts.blue);
+    else mapAny(data, channels, luts, dest);
   } else {
-    const alphaShift = luts.inDepth === luts.outDepth ? 0 : luts.inDepth === 16 ? 8 : -8;
-    for (let i = 0; i < n; i += 4) {
-      dest[i] = red[data[i]];
-      dest[i + 1] = green[data[i + 1]];
-      dest[i + 2] = blue[data[i + 2]];
-      const a = data[i + 3];
-      dest[i + 3] = alphaShift > 0 ? a >> 8 : alphaShift < 0 ? a * 257 : a;
-    }
+    mapAny(data, channels, luts, dest);
   }
   return dest;
 }
