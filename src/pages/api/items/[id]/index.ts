@@ -1,0 +1,9 @@
+import { idParam } from '../../../../lib/server/access.ts';
+import { apiRoute, json } from '../../../../lib/server/http.ts';
+import { itemDetail, itemForRole } from '../../../../lib/server/review.ts';
+
+/** One print for review: analysis, current and proposed correction, correction history, decision, neighbours. */
+export const GET = apiRoute(async ({ locals, params }) => {
+  const item = await itemForRole(locals, idParam(params.id, 'That print'), 'viewer');
+  return json({ item: await itemDetail(item) });
+});
