@@ -381,7 +381,7 @@ async function renderFromFull(full: FullPixels, file: Buffer | null, correction:
       .resize({ width: options.maxSide, height: options.maxSide, fit: 'inside' })
       .raw({ depth: full.depth === 16 ? 'ushort' : 'uchar' })
       .toBuffer({ resolveWithObject: true });
-    src = { data: full.depth === 16 ? new Uint16Array(Buffer.from(data).buffer) : new Uint8Array(data), width: info.width, height: info.height, channels: info.channels, depth: full.depth };
+    src = { data: full.depth === 16 ? new Uint16Array(data.buffer.slice(data.byteOffset, data.byteOffset + data.length)) : new Uint8Array(data.buffer, data.byteOffset, data.length), width: info.width, height: info.height, channels: info.channels, depth: full.depth };
   }
   const luts = buildChannelLuts(c, src.depth, 8);
   // 8-bit pixels are corrected in place unless the originals are still wanted for previews

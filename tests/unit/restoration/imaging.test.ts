@@ -251,6 +251,13 @@ describe('render output', () => {
     expect(r.previews!.original.preview).toBeInstanceOf(Buffer);
   });
 
+  it('can render a 16-bit scan smaller than full size', async () => {
+    const tiff = await encodeScene(generateScene({ width: 300, height: 200 }), { format: 'tiff', sixteenBit: true });
+    const r = await renderCorrected(tiff, identityCorrection(), { maxSide: 150 });
+    expect([r.width, r.height]).toEqual([150, 100]);
+    expect((await sharp(r.buffer).stats()).channels[1].mean).toBeLessThan(200);
+  });
+
   it('can render smaller than full size', async () => {
     const jpeg = await encodeScene(generateScene({ width: 600, height: 400 }), { format: 'jpeg' });
     const r = await renderCorrected(jpeg, identityCorrection(), { maxSide: 300 });
