@@ -1,5 +1,8 @@
 import type PgBoss from 'pg-boss';
 import type { AppConfig } from '../src/lib/server/config.ts';
+import { analyseHandler } from './analyse.ts';
+import { renderHandler } from './render.ts';
+import { batchSettledHandler } from './batch-settled.ts';
 
 /** One queue's handler as the worker registers it. */
 export interface JobHandler {
@@ -12,3 +15,4 @@ export interface JobHandler {
 
 /** Every handler the worker runs; each lives in its own file under jobs/. */
 export const HANDLERS: JobHandler[] = [];
+HANDLERS.push(analyseHandler, renderHandler, batchSettledHandler);

@@ -1,0 +1,88 @@
+/**
+ * The batch-settled queue: runs when none of a batch's items waits for or is in analysis.
+ * 1. Batch pooling (the engine's poolAnalyses): prints the engine is unsure of borrow the estimate
+ *    of their siblings from the same box or drawer; where that changes the proposal, a 'pooled'
+ *    correction version is added and rendered.
+ * 2. Whoever created the batch gets one e-mail with the counts and a link (finished_notified_at).
+ * The batch row is locked throughout, so however many of these jobs arrive, the work is done once.
+ */
+import type PgBoss from 'pg-boss';
+import { Op } from 'sequelize';
+import { Batch, Correction, Item, Original, User, db } from '../db/index.ts';
+import { poolAnalyses, type Analysis } from '../src/lib/restoration/analysis.ts';
+import { stateCounts } from '../src/lib/server/batches.ts';
+import { config } from '../src/lib/server/config.ts';
+import { linkMail, sendMail } from '../src/lib/server/mailer.ts';
+import { BATCH_SETTLED_QUEUE, enqueueRender, type BatchSettledJob } from '../src/lib/server/processing.ts';
+import type { JobHandler } from './registry.ts';
+
+/** The print's own measurement: the analysis as stored, without an earlier pooling note. */
+function ownAnalysis(stored: Record<string, unknown>): Analysis {
+  const { pooled: _pooled, pooledResult: _result, ...own } = stored as Record<string, unknown>;
+  return own as unknown as Analysis;
+}
+
+const same = (a: unknown, b: unknown) => JSON.stringify(a) === JSON.stringify(b);
+
+async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
+  const renders: { itemId: string; version: number; pixels: number }[] = [];
+  let mail: ReturnType<typeof linkMail> | null = null;
+  await db().transaction(async (transaction) => {
+    const batch = await Batch.findByPk(job.data.batchId, { transaction, lock: transaction.LOCK.UPDATE });
+    if (!batch) return;
+    const counts = (await stateCounts([batch.id])).get(batch.id)!;
+    if (counts.total === 0 || counts.queued > 0 || counts.analysing > 0) return;
+
+    const items = (await Item.findAll({ where: { batchId: batch.id, state: 'ready', analysis: { [Op.ne]: null } }, include: [{ model: Original, as: 'original' }], order: [['seq', 'ASC']], transaction })) as (Item & { original: Original })[];
+    const own = items.map((i) => ownAnalysis(i.analysis!));
+    const pooled = poolAnalyses(own);
+    for (let n = 0; n < items.length; n++) {
+      const item = items[n];
+      const result = pooled[n];
+      if (!result.pooled || item.decision) continue;
+      const latest = await Correction.findOne({ where: { itemId: item.id }, order: [['version', 'DESC']], transaction });
+      if (latest && latest.origin !== 'proposed' && latest.origin !== 'pooled') continue;
+      const params = { ...result.proposed };
+      if (latest && same(latest.params, params)) continue;
+      const version = (latest?.version ?? 0) + 1;
+      await Correction.create({ itemId: item.id, version, params: params as unknown as Record<string, unknown>, origin: 'pooled', createdBy: null }, { transaction });
+      await Item.update(
+        {
+          currentVersion: version,
+          fadeGrade: result.fadeGrade,
+          analysis: { ...(own[n] as unknown as Record<string, unknown>), pooled: result.pooled, pooledResult: { fadeGrade: result.fadeGrade, confidence: result.confidence, dyes: result.dyes, proposed: result.proposed } },
+        },
+        { where: { id: item.id }, transaction },
+      );
+      renders.push({ itemId: item.id, version, pixels: (item.original.width ?? 0) * (item.original.height ?? 0) });
+    }
+
+    if (!batch.finishedNotifiedAt) {
+      const creator = batch.createdBy ? await User.findByPk(batch.createdBy, { transaction }) : null;
+      if (creator) {
+        const url = `${config().appUrl}/batches/${batch.id}`;
+        const parts = [`${counts.ready} ready for review`];
+        if (counts.failed) parts.push(`${counts.failed} failed (each with its reason and a "Try again" button)`);
+        mail = linkMail(
+          creator.email,
+          `Batch "${batch.name}" is ready for review`,
+          `All ${counts.total} scans of the batch "${batch.name}" have been processed: ${parts.join(', ')}.`,
+          'Open the batch',
+          url,
+          renders.length ? `${renders.length} uncertain prints borrowed the estimate of their siblings in this batch.` : '',
+        );
+        // Sent while the row is locked and before the mark is committed: a failed send rolls back and the job retries.
+        await sendMail(mail);
+      }
+      await batch.update({ finishedNotifiedAt: new Date() }, { transaction });
+    }
+  });
+  for (const r of renders) await enqueueRender(r.itemId, r.version, r.pixels);
+}
+
+export const batchSettledHandler: JobHandler = {
+  queue: BATCH_SETTLED_QUEUE.name,
+  handle: async (jobs: PgBoss.Job<BatchSettledJob>[]) => {
+    for (const job of jobs) await settle(job);
+  },
+};

@@ -1,0 +1,199 @@
+/**
+ * The one ingest service: the web upload, the ingest command and the demo seed all take scans
+ * in through {@link ingestScan}. A scan is streamed to storage while it is hashed (never held
+ * whole in memory), judged by its bytes (the engine's header probe: JPEG, PNG and TIFF only,
+ * pixel limit read from the header before anything is decoded), stored once per archive under
+ * its SHA-256, described by its EXIF, and becomes an item of the batch with its analysis queued.
+ */
+import { createHash, randomUUID } from 'node:crypto';
+import { open } from 'node:fs/promises';
+import type { Readable } from 'node:stream';
+import ExifReader from 'exifreader';
+import { Op } from 'sequelize';
+import { Batch, Item, Original, db } from '../../../db/index.ts';
+import { probeScan, ScanRejected, type ScanProbe } from '../restoration/imaging.ts';
+import type { UploadLimits, UploadOutcome } from '../batches/schemas.ts';
+import { recordAudit } from './audit.ts';
+import { config } from './config.ts';
+import { TooLarge } from './errors.ts';
+import { enqueueAnalyse } from './processing.ts';
+import { storage } from './storage.ts';
+
+/** The limits every way in enforces, from config. */
+export function uploadLimits(): UploadLimits {
+  const c = config();
+  return { maxBytes: c.limits.maxUploadBytes, maxPixels: c.limits.maxPixels };
+}
+
+export interface IngestInput {
+  archiveId: string;
+  batchId: string;
+  /** Who is adding the scan (created_by and the audit log). */
+  userId: string | null;
+  /** The file's name (or relative path within a dropped folder) as the archivist knows it. */
+  name: string;
+  body: Readable | AsyncIterable<Uint8Array>;
+  requestId?: string;
+}
+
+const FORMAT_FILE = { jpeg: { mime: 'image/jpeg', ext: '.jpg' }, png: { mime: 'image/png', ext: '.png' }, tiff: { mime: 'image/tiff', ext: '.tif' } } as const;
+
+/** Bytes and SHA-256 of a stream as it passes, refusing a file past the byte limit. */
+interface Meter {
+  bytes: number;
+  hash: ReturnType<typeof createHash>;
+  maxBytes: number;
+}
+
+async function* metered(body: Readable | AsyncIterable<Uint8Array>, meter: Meter): AsyncIterable<Buffer> {
+  // A generator pulled by the disk writer keeps back-pressure from disk all the way to the request body.
+  for await (const chunk of body) {
+    const buf = Buffer.isBuffer(chunk) ? chunk : Buffer.from(chunk as Uint8Array);
+    meter.bytes += buf.length;
+    if (meter.bytes > meter.maxBytes) throw new TooLarge(`The file is larger than the limit of ${Math.round(meter.maxBytes / 1048576)} MB.`);
+    meter.hash.update(buf);
+    yield buf;
+  }
+}
+
+/** A file name fit to show and store: no control characters, no more than 300 characters. */
+export function cleanName(name: string): string {
+  // eslint-disable-next-line no-control-regex
+  const cleaned = name.replace(/[\u0000-\u001f\u007f]/g, '').replace(/\\/g, '/').trim();
+  return (cleaned || 'unnamed scan').slice(-300);
+}
+
+const EXIF_HEAD_BYTES = 512 * 1024;
+
+/**
+ * What the scan's EXIF says about where and when it was made: capture and scan dates,
+ * resolution, device and orientation. Read from the head of the file only (EXIF sits near the
+ * start of JPEG, PNG and most TIFF files), so a large scan is not read twice into memory.
+ */
+export async function readScanExif(path: string, probe: ScanProbe): Promise<Record<string, unknown>> {
+  const fh = await open(path, 'r');
+  let head: Buffer;
+  try {
+    head = Buffer.alloc(Math.min(EXIF_HEAD_BYTES, probe.bytes));
+    await fh.read(head, 0, head.length, 0);
+  } finally {
+    await fh.close();
+  }
+  let tags: Record<string, { description?: string; value?: unknown } | undefined> = {};
+  try {
+    tags = ExifReader.load(head) as unknown as typeof tags;
+  } catch {
+    tags = {};
+  }
+  const text = (name: string): string | undefined => {
+    const d = tags[name]?.description;
+    return typeof d === 'string' && d.trim() ? d.trim().slice(0, 200) : undefined;
+  };
+  const num = (name: string): number | undefined => {
+    const v = tags[name]?.value;
+    if (typeof v === 'number') return v;
+    if (Array.isArray(v) && Array.isArray(v[0]) && typeof v[0][0] === 'number' && v[0][1]) return v[0][0] / v[0][1];
+    if (Array.isArray(v) && typeof v[0] === 'number' && typeof v[1] === 'number' && v[1]) return v[0] / v[1];
+    const d = Number(tags[name]?.description);
+    return Number.isFinite(d) ? d : undefined;
+  };
+  const unit = text('ResolutionUnit');
+  const out: Record<string, unknown> = {
+    captureDate: text('DateTimeOriginal'),
+    scanDate: text('DateTimeDigitized') ?? text('DateTime'),
+    make: text('Make'),
+    model: text('Model'),
+    software: text('Software'),
+    orientation: probe.orientation,
+    resolution: probe.density ?? num('XResolution'),
+    resolutionUnit: unit ? (/cm|centimet/i.test(unit) ? 'cm' : 'inch') : probe.density ? 'inch' : undefined,
+    description: text('ImageDescription'),
+    format: probe.format,
+    bitsPerChannel: probe.bitsPerChannel,
+    colourSpace: probe.space,
+    iccProfile: probe.hasIccProfile,
+  };
+  for (const k of Object.keys(out)) if (out[k] === undefined) delete out[k];
+  return out;
+}
+
+function outcomeOf(kind: 'added' | 'duplicate', item: Item, sha256: string, existing?: UploadOutcome['existing']): UploadOutcome {
+  return {
+    outcome: kind,
+    item: { id: item.id, seq: item.seq, state: item.state, originalName: item.originalName, batchId: item.batchId },
+    ...(existing ? { existing } : {}),
+    sha256,
+  };
+}
+
+/** Where the same bytes already are in this archive, if they are an item anywhere. */
+async function existingItem(archiveId: string, originalId: string, preferBatch: string): Promise<Item | null> {
+  const items = await Item.findAll({ where: { archiveId, originalId }, order: [['createdAt', 'ASC']] });
+  return items.find((i) => i.batchId === preferBatch) ?? items[0] ?? null;
+}
+
+async function duplicateOutcome(item: Item, sha256: string): Promise<UploadOutcome> {
+  const batch = await Batch.findByPk(item.batchId);
+  return outcomeOf('duplicate', item, sha256, { batchId: item.batchId, batchName: batch?.name ?? '', seq: item.seq, originalName: item.originalName });
+}
+
+/**
+ * Takes one scan into a batch. Returns `added` with the new item (analysis queued), or
+ * `duplicate` with the item that already holds the same bytes in this archive: nothing is
+ * stored twice and no second item is made.
+ * @throws {ScanRejected} for a file that is not a scan we can take (type, size, pixels, damaged header)
+ * @throws {TooLarge} when the stream passes the byte limit
+ */
+export async function ingestScan(input: IngestInput): Promise<UploadOutcome> {
+  const limits = uploadLimits();
+  const store = storage();
+  const name = cleanName(input.name);
+  // Staged under a key of its own, so a refused file never reaches the write-once originals.
+  const stageKey = `incoming/${randomUUID()}.part`;
+  const meter: Meter = { bytes: 0, hash: createHash('sha256'), maxBytes: limits.maxBytes };
+  try {
+    await store.put(stageKey, metered(input.body, meter));
+    if (meter.bytes === 0) throw new ScanRejected('empty', 'The file is empty (0 bytes).');
+    const sha256 = meter.hash.digest('hex');
+    const stagePath = await store.localPath(stageKey);
+    const probe = await probeScan(stagePath, { maxBytes: limits.maxBytes, maxPixels: limits.maxPixels });
+
+    let original = await Original.findOne({ where: { archiveId: input.archiveId, sha256 } });
+    if (original) {
+      const found = await existingItem(input.archiveId, original.id, input.batchId);
+      if (found) return await duplicateOutcome(found, sha256);
+    } else {
+      const format = FORMAT_FILE[probe.format];
+      const blob = await store.putContentAddressed('originals', store.read(stageKey), { maxBytes: limits.maxBytes, ext: format.ext });
+      if (blob.sha256 !== sha256) throw new Error(`checksum changed between staging and storing (${sha256} then ${blob.sha256})`);
+      const exif = await readScanExif(stagePath, probe);
+      [original] = await Original.findOrCreate({
+        where: { archiveId: input.archiveId, sha256 },
+        defaults: { archiveId: input.archiveId, sha256, storageKey: blob.key, bytes: blob.bytes, mime: format.mime, width: probe.width, height: probe.height, exif, createdBy: input.userId },
+      });
+    }
+
+    const originalId = original.id;
+    const result = await db().transaction(async (transaction) => {
+      // The batch row is the lock that hands out sequence numbers one at a time and lets
+      // concurrent uploads of the same file into one batch meet here.
+      await Batch.findByPk(input.batchId, { transaction, lock: transaction.LOCK.UPDATE });
+      const already = await Item.findOne({ where: { batchId: input.batchId, originalId }, transaction });
+      if (already) return { kind: 'duplicate' as const, item: already };
+      const elsewhere = await Item.findOne({ where: { archiveId: input.archiveId, originalId, batchId: { [Op.ne]: input.batchId } }, transaction });
+      if (elsewhere) return { kind: 'duplicate' as const, item: elsewhere };
+      const seq = ((await Item.max<number, Item>('seq', { where: { batchId: input.batchId }, transaction })) ?? 0) + 1;
+      const item = await Item.create({ archiveId: input.archiveId, batchId: input.batchId, originalId, seq, originalName: name }, { transaction });
+      await recordAudit(
+        { archiveId: input.archiveId, actorId: input.userId, action: 'item.ingest', subjectType: 'item', subjectId: item.id, details: { name, sha256, bytes: meter.bytes, batchId: input.batchId }, requestId: input.requestId },
+        transaction,
+      );
+      return { kind: 'added' as const, item };
+    });
+    if (result.kind === 'duplicate') return await duplicateOutcome(result.item, sha256);
+    await enqueueAnalyse(result.item.id, probe.storedWidth * probe.storedHeight);
+    return outcomeOf('added', result.item, sha256);
+  } finally {
+    await store.remove(stageKey).catch(() => undefined);
+  }
+}

@@ -1,0 +1,97 @@
+/**
+ * The processing queues of a batch, declared once as data, and the calls that put work on them.
+ * The web server, the ingest command and the worker all import this module, so each process
+ * knows the same queue behaviour (retries with backoff, the dead-letter queue, expiry).
+ */
+import type PgBoss from 'pg-boss';
+import { DEAD_LETTER_QUEUE, declareQueue, queue, type QueueSpec } from './queue.ts';
+
+/** Analyse one item: decode once, measure, propose, render the corrected JPEG and the previews. */
+export const ANALYSE_QUEUE = declareQueue({
+  name: 'analyse',
+  options: { retryLimit: 4, retryDelay: 5, retryBackoff: true, expireInSeconds: 900, retentionDays: 7, deadLetter: DEAD_LETTER_QUEUE },
+});
+
+/** Render one correction version of an item at full resolution (after pooling or an operator's change). */
+export const RENDER_QUEUE = declareQueue({
+  name: 'render',
+  options: { retryLimit: 4, retryDelay: 5, retryBackoff: true, expireInSeconds: 900, retentionDays: 7, deadLetter: DEAD_LETTER_QUEUE },
+});
+
+/** A batch's analyses are all in: pool the uncertain prints, then tell whoever made the batch. */
+export const BATCH_SETTLED_QUEUE = declareQueue({
+  name: 'batch-settled',
+  options: { retryLimit: 6, retryDelay: 10, retryBackoff: true, expireInSeconds: 600, retentionDays: 7, deadLetter: DEAD_LETTER_QUEUE },
+});
+
+export interface AnalyseJob {
+  itemId: string;
+}
+export interface RenderJob {
+  itemId: string;
+  version: number;
+}
+export interface BatchSettledJob {
+  batchId: string;
+}
+
+const created = new Set<string>();
+
+/**
+ * pg-boss 10 refuses to send to a queue it has not created; a process may have started the queue
+ * before this module was imported, so each queue is made sure of once per process.
+ */
+async function boss(spec: QueueSpec): Promise<PgBoss> {
+  const b = await queue();
+  if (!created.has(spec.name)) {
+    await b.createQueue(spec.name, { name: spec.name, ...spec.options }).catch((err: Error) => {
+      if (!/already exists/i.test(String(err?.message))) throw err;
+    });
+    created.add(spec.name);
+  }
+  return b;
+}
+
+/**
+ * A lease long enough for the slowest honest decode of a scan this size (about 2 s per
+ * megapixel on one shared core, with a floor), short enough that a crashed worker's job is
+ * handed to another worker soon: pg-boss retries a job whose lease ran out.
+ */
+export function leaseSeconds(pixels: number | null | undefined): number {
+  const mp = (pixels ?? 0) / 1e6;
+  return Math.min(1800, Math.max(30, Math.ceil(30 + 2 * mp)));
+}
+
+/** Queues the analysis of an item. */
+export async function enqueueAnalyse(itemId: string, pixels?: number | null): Promise<void> {
+  const b = await boss(ANALYSE_QUEUE);
+  await b.send(ANALYSE_QUEUE.name, { itemId } satisfies AnalyseJob, { expireInSeconds: leaseSeconds(pixels) });
+}
+
+/** Queues a full-resolution render of one correction version of an item. */
+export async function enqueueRender(itemId: string, version: number, pixels?: number | null): Promise<void> {
+  const b = await boss(RENDER_QUEUE);
+  await b.send(RENDER_QUEUE.name, { itemId, version } satisfies RenderJob, { expireInSeconds: leaseSeconds(pixels) });
+}
+
+/**
+ * Queues the settling of a batch. Several workers finishing the last analyses at once may each
+ * ask; the handler locks the batch row, so the work is done once however many jobs arrive.
+ */
+export async function enqueueBatchSettled(batchId: string): Promise<void> {
+  const b = await boss(BATCH_SETTLED_QUEUE);
+  await b.send(BATCH_SETTLED_QUEUE.name, { batchId } satisfies BatchSettledJob);
+}
+
+/** Storage keys of an item's derived files: deterministic, so a retried job overwrites instead of adding. */
+export const derivedKeys = {
+  originalPreview: (itemId: string) => `previews/${itemId}/original.jpg`,
+  originalThumbnail: (itemId: string) => `thumbnails/${itemId}/original.jpg`,
+  render: (itemId: string, version: number) => `renders/${itemId}/v${version}.jpg`,
+  renderPreview: (itemId: string, version: number) => `previews/${itemId}/v${version}.jpg`,
+  renderThumbnail: (itemId: string, version: number) => `thumbnails/${itemId}/v${version}.jpg`,
+};
+
+/** Long sides of the small copies made from the same decode as the render. */
+export const PREVIEW_SIDE = 1600;
+export const THUMBNAIL_SIDE = 360;

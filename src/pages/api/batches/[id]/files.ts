@@ -1,0 +1,39 @@
+import { FILE_NAME_HEADER } from '../../../../lib/batches/schemas.ts';
+import { ScanRejected } from '../../../../lib/restoration/errors.ts';
+import { idParam } from '../../../../lib/server/access.ts';
+import { batchForCaller } from '../../../../lib/server/batches.ts';
+import { InvalidInput, TooLarge } from '../../../../lib/server/errors.ts';
+import { apiRoute, errorResponse, json } from '../../../../lib/server/http.ts';
+import { ingestScan, uploadLimits } from '../../../../lib/server/ingest.ts';
+
+function fileName(request: Request): string {
+  const raw = request.headers.get(FILE_NAME_HEADER);
+  if (!raw) throw new InvalidInput(`Name the file in the ${FILE_NAME_HEADER} header (URI-encoded).`, { [FILE_NAME_HEADER]: 'Required.' });
+  try {
+    return decodeURIComponent(raw);
+  } catch {
+    return raw;
+  }
+}
+
+/**
+ * Uploads one scan into a batch: the raw file is the request body (any content type; the bytes
+ * decide), its name in the X-File-Name header. Streamed to storage, never held in memory.
+ * 201 with the new item (its analysis queued); 200 when the same bytes are already in the archive.
+ */
+export const POST = apiRoute(async ({ locals, params, request }) => {
+  const batch = await batchForCaller(locals, idParam(params.id, 'That batch'), 'editor');
+  const name = fileName(request);
+  const declared = Number(request.headers.get('content-length') ?? NaN);
+  const limits = uploadLimits();
+  if (Number.isFinite(declared) && declared > limits.maxBytes) throw new TooLarge(`The file is ${Math.round(declared / 1048576)} MB; the limit is ${Math.round(limits.maxBytes / 1048576)} MB.`);
+  if (!request.body) throw new InvalidInput('The request has no file in its body.');
+  try {
+    const result = await ingestScan({ archiveId: batch.archiveId, batchId: batch.id, userId: locals.user!.id, name, body: request.body as unknown as AsyncIterable<Uint8Array>, requestId: locals.requestId });
+    if (result.outcome === 'duplicate') return json(result, 200);
+    return json(result, 201, { location: `/api/items/${result.item.id}` });
+  } catch (err) {
+    if (err instanceof ScanRejected) return errorResponse(err.status, err.code, err.message, { file: name });
+    throw err;
+  }
+});

@@ -1,0 +1,10 @@
+import { idParam } from '../../../../lib/server/access.ts';
+import { itemForCaller } from '../../../../lib/server/batches.ts';
+import { fileResponse, withExtension } from '../../../../lib/server/files.ts';
+import { apiRoute } from '../../../../lib/server/http.ts';
+
+/** The full-resolution corrected JPEG of the newest rendered correction version (`?download=1` to save it). */
+export const GET = apiRoute(async ({ locals, params, request, url }) => {
+  const item = await itemForCaller(locals, idParam(params.id, 'That item'), 'viewer');
+  return fileResponse(request, item.renderKey, 'image/jpeg', withExtension(item.originalName, '-corrected.jpg'), { download: url.searchParams.has('download') });
+});

@@ -1,0 +1,209 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { crc32 } from 'node:zlib';
+import sharp from 'sharp';
+import { Correction, Item, Original, closeDb } from '../../../db/index.ts';
+import { listOutbox } from '../../../src/lib/server/outbox.ts';
+import { storage } from '../../../src/lib/server/storage.ts';
+import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
+import { Client } from '../../support/http.ts';
+import { createBatch, generatedScans, sha256, upload, uploadAll, waitSettled } from './helpers.ts';
+
+let a: TestArchive;
+let other: TestArchive;
+beforeAll(async () => {
+  a = await makeArchive('ingest');
+  other = await makeArchive('ingest-other');
+});
+afterAll(() => closeDb());
+
+describe('batch ingest through the API', () => {
+  it('takes 40 generated scans to ready, each with an analysis and a full-size corrected image', async () => {
+    const editor = asToken(a.editor);
+    const batchId = await createBatch(editor, 'Forty generated prints');
+    const files = await generatedScans(40, 100);
+    const replies = await uploadAll(editor, batchId, files, 4);
+    for (const r of replies) {
+      expect(r.status).toBe(201);
+      expect(r.body).toMatchObject({ outcome: 'added', item: { state: 'queued' } });
+      expect(r.headers.get('location')).toBe(`/api/items/${r.body.item.id}`);
+    }
+    expect(new Set(replies.map((r) => r.body.item.seq))).toEqual(new Set(Array.from({ length: 40 }, (_, i) => i + 1)));
+
+    const status = await waitSettled(editor, batchId);
+    expect(status.counts).toMatchObject({ ready: 40, failed: 0, queued: 0, analysing: 0, total: 40 });
+
+    const items = await editor.get(`/api/batches/${batchId}/items`);
+    expect(items.status).toBe(200);
+    expect(items.body.items).toHaveLength(40);
+    const bySha = new Map(files.map((f) => [sha256(f.bytes), f]));
+    for (const it of items.body.items.slice(0, 40)) {
+      expect(it.state).toBe('ready');
+      expect(it.analysis).toMatchObject({ fadeGrade: expect.any(String), proposed: { version: 1 } });
+      expect(bySha.get(it.original.sha256)?.name).toBe(it.originalName);
+      expect(it.links.corrected).toBe(`/api/items/${it.id}/corrected`);
+    }
+    // Downloads: a sample, byte for byte for the original, a decodable JPEG of the same size for the render.
+    for (const it of items.body.items.slice(0, 5)) {
+      const orig = await fetchBytes(editor, it.links.original);
+      expect(orig.type).toBe('image/jpeg');
+      expect(sha256(orig.bytes)).toBe(it.original.sha256);
+      const corrected = await fetchBytes(editor, it.links.corrected);
+      expect(corrected.type).toBe('image/jpeg');
+      const meta = await sharp(corrected.bytes).metadata();
+      expect([meta.format, meta.width, meta.height]).toEqual(['jpeg', 600, 400]);
+      const preview = await fetchBytes(editor, it.links.preview);
+      expect((await sharp(preview.bytes).metadata()).format).toBe('jpeg');
+      const thumb = await fetchBytes(editor, `${it.links.thumbnail}?of=original`);
+      expect(Math.max((await sharp(thumb.bytes).metadata()).width!, 1)).toBeLessThanOrEqual(360);
+    }
+    // Exactly one proposed correction per item, however the jobs ran.
+    const dbItems = await Item.findAll({ where: { batchId } });
+    const proposed = await Correction.count({ where: { itemId: dbItems.map((i) => i.id), origin: 'proposed' } });
+    expect(proposed).toBe(40);
+
+    // The creator hears about it once (the mail fake's outbox).
+    let mails: Awaited<ReturnType<typeof listOutbox>> = [];
+    for (let i = 0; i < 40 && mails.length === 0; i++) {
+      mails = (await listOutbox()).filter((m) => m.to.includes(a.editor.email) && m.subject.includes('Forty generated prints'));
+      if (mails.length === 0) await new Promise((r) => setTimeout(r, 500));
+    }
+    expect(mails).toHaveLength(1);
+    expect(mails[0].text).toContain('40 ready for review');
+    expect(mails[0].text).toContain(`/batches/${batchId}`);
+  }, 300_000);
+
+  it('stores the same file once: a second upload is linked to the first item and reported', async () => {
+    const editor = asToken(a.editor);
+    const first = await createBatch(editor, 'Shoebox A');
+    const second = await createBatch(editor, 'Shoebox B');
+    const [scan] = await generatedScans(1, 900);
+    const r1 = await upload(editor, first, 'IMG_0001.jpg', scan.bytes);
+    expect(r1.status).toBe(201);
+    const r2 = await upload(editor, first, 'IMG_0001 copy.jpg', scan.bytes);
+    expect(r2.status).toBe(200);
+    expect(r2.body).toMatchObject({ outcome: 'duplicate', item: { id: r1.body.item.id }, existing: { batchName: 'Shoebox A', seq: 1, originalName: 'IMG_0001.jpg' } });
+    const r3 = await upload(editor, second, 'again.jpg', scan.bytes);
+    expect(r3.status).toBe(200);
+    expect(r3.body).toMatchObject({ outcome: 'duplicate', item: { id: r1.body.item.id, batchId: first } });
+
+    const sha = sha256(scan.bytes);
+    const originals = await Original.findAll({ where: { archiveId: a.id, sha256: sha } });
+    expect(originals).toHaveLength(1);
+    expect(await Item.count({ where: { archiveId: a.id, originalId: originals[0].id } })).toBe(1);
+    const stored = (await storage().list('originals')).filter((k) => k.includes(sha));
+    expect(stored).toHaveLength(1);
+    // Another archive keeps its own copy: dedupe is per archive.
+    const otherBatch = await createBatch(asToken(other.editor), 'Their shoebox');
+    expect((await upload(asToken(other.editor), otherBatch, 'theirs.jpg', scan.bytes)).status).toBe(201);
+  });
+
+  it('fails a corrupt scan alone, with its reason, and refuses non-scans by their bytes', async () => {
+    const editor = asToken(a.editor);
+    const batchId = await createBatch(editor, 'Mixed drawer');
+    const good = await generatedScans(3, 300);
+    const [whole] = await generatedScans(1, 400);
+    const cut = whole.bytes.subarray(0, Math.floor(whole.bytes.length * 0.6));
+    const originalsBefore = await Original.count({ where: { archiveId: a.id } });
+
+    const refused = [
+      { name: 'notes.jpg', bytes: Buffer.from('Hall cupboard, top shelf: 1978 to 1983\n'), status: 415, code: 'unsupported_type' },
+      { name: 'drawing.png', bytes: Buffer.from('<svg xmlns="http://www.w3.org/2000/svg" width="10" height="10"></svg>'), status: 415, code: 'unsupported_type' },
+      { name: 'page.tif', bytes: Buffer.from('<!doctype html><html><body>hello</body></html>'), status: 415, code: 'unsupported_type' },
+      { name: 'empty.jpg', bytes: Buffer.alloc(0), status: 400, code: 'empty' },
+    ];
+    for (const f of refused) {
+      const r = await upload(editor, batchId, f.name, f.bytes);
+      expect(r.status, f.name).toBe(f.status);
+      expect(r.body.error).toMatchObject({ code: f.code, message: expect.any(String), fields: { file: f.name } });
+    }
+    expect(await Original.count({ where: { archiveId: a.id } })).toBe(originalsBefore);
+
+    const replies = await uploadAll(editor, batchId, [...good, { name: 'cut-short.jpg', bytes: cut }], 2);
+    for (const r of replies) expect(r.status).toBe(201);
+    const status = await waitSettled(editor, batchId);
+    expect(status.counts).toMatchObject({ ready: 3, failed: 1, total: 4 });
+
+    const failed = await editor.get(`/api/batches/${batchId}/items?state=failed`);
+    expect(failed.body.items).toHaveLength(1);
+    expect(failed.body.items[0]).toMatchObject({ originalName: 'cut-short.jpg', failureReason: expect.stringMatching(/cut short|damaged/i), links: { retry: expect.any(String) } });
+    // The damaged original is still kept, untouched.
+    const orig = await fetchBytes(editor, failed.body.items[0].links.original);
+    expect(sha256(orig.bytes)).toBe(sha256(cut));
+    // Trying again queues it (202); it fails again for the same reason, and never turns ready.
+    const retry = await editor.post(failed.body.items[0].links.retry);
+    expect(retry.status).toBe(202);
+    expect((await editor.post(failed.body.items[0].links.retry)).status).toBe(409);
+    const again = await waitSettled(editor, batchId);
+    expect(again.counts).toMatchObject({ ready: 3, failed: 1 });
+  }, 180_000);
+
+  it('refuses a scan over the pixel limit from its header, before decoding it', async () => {
+    const editor = asToken(a.editor);
+    const batchId = await createBatch(editor, 'Oversized');
+    // A PNG whose IHDR claims 50000 x 50000 pixels (2500 megapixels, over the 150 default) with a token IDAT.
+    const r = await upload(editor, batchId, 'bomb.png', bombPng());
+    expect(r.status).toBe(413);
+    expect(r.body.error.code).toBe('too_many_pixels');
+  });
+
+  it('answers 401 anonymous, 404 to another archive, 403 to a viewer', async () => {
+    const batchId = await createBatch(asToken(a.editor), 'Guarded');
+    const [scan] = await generatedScans(1, 700);
+    expect((await upload(new Client(), batchId, 'x.jpg', scan.bytes)).status).toBe(401);
+    expect((await upload(asToken(other.owner), batchId, 'x.jpg', scan.bytes)).status).toBe(404);
+    expect((await upload(asToken(a.viewer), batchId, 'x.jpg', scan.bytes)).status).toBe(403);
+    expect((await asToken(other.owner).get(`/api/batches/${batchId}`)).status).toBe(404);
+    expect((await asToken(other.owner).get(`/api/batches/${batchId}/items`)).status).toBe(404);
+    expect((await asToken(a.viewer).post('/api/batches', { name: 'Not mine to make' })).status).toBe(403);
+    expect((await asToken(a.viewer).get(`/api/batches/${batchId}`)).status).toBe(200);
+    const ok = await upload(asToken(a.editor), batchId, 'x.jpg', scan.bytes);
+    expect(ok.status).toBe(201);
+    const itemId = ok.body.item.id;
+    expect((await new Client().get(`/api/items/${itemId}/original`)).status).toBe(401);
+    expect((await asToken(other.owner).get(`/api/items/${itemId}/original`)).status).toBe(404);
+    expect((await asToken(a.viewer).get(`/api/items/${itemId}/original`)).status).toBe(200);
+    const list = await asToken(a.viewer).get('/api/batches');
+    expect(list.body.batches.find((b: any) => b.id === batchId)).toMatchObject({ name: 'Guarded', counts: { total: 1 } });
+  });
+
+  it('lists batches with counts, validates the batch form and refuses a second batch of the same name', async () => {
+    const editor = asToken(a.editor);
+    const r = await editor.post('/api/batches', { name: 'Green album', sourceKind: 'album', sourceLabel: 'Green album, pages 1-20', dateFrom: '1978', dateTo: '1983~', notes: 'Invented for the test.' });
+    expect(r.status).toBe(201);
+    expect(r.headers.get('location')).toBe(`/api/batches/${r.body.id}`);
+    expect(r.body).toMatchObject({ sourceKind: 'album', dateFrom: '1978', dateTo: '1983~', counts: { total: 0 } });
+    expect((await editor.post('/api/batches', { name: 'Green album' })).status).toBe(409);
+    const bad = await editor.post('/api/batches', { name: '', sourceKind: 'crate', dateFrom: 'last summer' });
+    expect(bad.status).toBe(400);
+    expect(Object.keys(bad.body.error.fields).sort()).toEqual(['dateFrom', 'name', 'sourceKind']);
+  });
+});
+
+function pngChunk(type: string, data: Buffer): Buffer {
+  const len = Buffer.alloc(4);
+  len.writeUInt32BE(data.length);
+  const body = Buffer.concat([Buffer.from(type, 'latin1'), data]);
+  const crc = Buffer.alloc(4);
+  crc.writeUInt32BE(crc32(body) >>> 0);
+  return Buffer.concat([len, body, crc]);
+}
+
+function bombPng(): Buffer {
+  const ihdr = Buffer.alloc(13);
+  ihdr.writeUInt32BE(50000, 0);
+  ihdr.writeUInt32BE(50000, 4);
+  ihdr[8] = 8;
+  ihdr[9] = 2;
+  return Buffer.concat([
+    Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]),
+    pngChunk('IHDR', ihdr),
+    pngChunk('IDAT', Buffer.from([0x78, 0x9c, 0x03, 0x00, 0x00, 0x00, 0x00, 0x01])),
+    pngChunk('IEND', Buffer.alloc(0)),
+  ]);
+}
+
+async function fetchBytes(client: Client, path: string): Promise<{ type: string | null; bytes: Buffer }> {
+  const res = await fetch(`${process.env.APP_URL}${path}`, { headers: { authorization: `Bearer ${client.token}` } });
+  expect(res.status, path).toBe(200);
+  return { type: res.headers.get('content-type'), bytes: Buffer.from(await res.arrayBuffer()) };
+}
