@@ -7,7 +7,6 @@
  */
 import { readFile, stat, open } from 'node:fs/promises';
 import sharp from 'sharp';
-import ExifReader from 'exifreader';
 import { analysePixels, type Analysis, type ReducedPixels } from './analysis';
 import { applyCorrection, buildChannelLuts, correctionSchema, type Correction } from './correction';
 import { ScanRejected } from './errors';
@@ -21,6 +20,8 @@ export type ScanFormat = 'jpeg' | 'png' | 'tiff';
 
 /** What the header of a scan says, read without decoding the pixels. */
 export interface ScanProbe {
+  /** Raw EXIF block, when the file has one (not serialised into reports). */
+  exif?: Buffer;
   format: ScanFormat;
   /** Size after EXIF orientation is applied: the size of every render. */
   width: number;
@@ -127,6 +128,7 @@ export async function probeScan(input: string | Buffer, limits: Partial<ScanLimi
     hasIccProfile: Boolean(meta.icc),
     density: meta.density,
     bytes,
+    exif: meta.exif,
   };
 }
 
@@ -216,28 +218,53 @@ export async function analyseScan(input: string | Buffer, limits?: Partial<ScanL
   return analysePixels(await loadReduced(input, 1280, limits));
 }
 
-const EXIF_KEEP = {
-  IFD0: ['Make', 'Model', 'DateTime', 'Artist', 'Copyright', 'ImageDescription'],
-  IFD2: ['DateTimeOriginal', 'DateTimeDigitized', 'OffsetTimeOriginal'],
-} as const;
+/** EXIF tags worth carrying from a scan to its render: dates, device, author (EXIF 2.32 tag numbers). */
+const EXIF_KEEP: Record<'IFD0' | 'IFD2', Record<number, string>> = {
+  IFD0: { 0x010e: 'ImageDescription', 0x010f: 'Make', 0x0110: 'Model', 0x0132: 'DateTime', 0x013b: 'Artist', 0x8298: 'Copyright' },
+  IFD2: { 0x9003: 'DateTimeOriginal', 0x9004: 'DateTimeDigitized', 0x9011: 'OffsetTimeOriginal' },
+};
+const EXIF_IFD_POINTER = 0x8769;
 
-/** The EXIF worth carrying from a scan to its render: dates, device, author. Orientation is not: the pixels are turned. */
-export function meaningfulExif(file: Buffer): sharp.Exif {
+/**
+ * Reads the carried-over EXIF text tags from a raw EXIF block (as libvips hands it over, with or
+ * without the "Exif\0\0" prefix). Orientation is deliberately not among them: the render's pixels
+ * are already turned. Malformed blocks yield what could be read.
+ */
+export function meaningfulExif(exif: Buffer | undefined): sharp.Exif {
   const out: sharp.Exif = {};
-  let tags: ExifReader.Tags;
-  try {
-    tags = ExifReader.load(file);
-  } catch {
-    return out;
-  }
-  for (const [ifd, names] of Object.entries(EXIF_KEEP) as [keyof typeof EXIF_KEEP, readonly string[]][]) {
-    for (const name of names) {
-      const tag = (tags as Record<string, { description?: string } | undefined>)[name];
-      const text = tag?.description?.trim();
-      // libvips flattens non-ASCII and trims some punctuation: keep EXIF plain (CHECKS.md)
-      if (text && /^[\x20-\x7e]+$/.test(text)) (out[ifd] ??= {})[name] = text;
+  if (!exif || exif.length < 8) return out;
+  const base = exif.toString('latin1', 0, 6) === 'Exif\0\0' ? 6 : 0;
+  const order = exif.toString('latin1', base, base + 2);
+  if (order !== 'II' && order !== 'MM') return out;
+  const le = order === 'II';
+  const u16 = (o: number) => (o + 2 <= exif.length ? (le ? exif.readUInt16LE(o) : exif.readUInt16BE(o)) : -1);
+  const u32 = (o: number) => (o + 4 <= exif.length ? (le ? exif.readUInt32LE(o) : exif.readUInt32BE(o)) : -1);
+  const readIfd = (offset: number, wanted: Record<number, string>, into: 'IFD0' | 'IFD2'): number | null => {
+    const at = base + offset;
+    const n = u16(at);
+    if (n < 0 || n > 512) return null;
+    let exifPointer: number | null = null;
+    for (let k = 0; k < n; k++) {
+      const e = at + 2 + k * 12;
+      const tag = u16(e);
+      const type = u16(e + 2);
+      const count = u32(e + 4);
+      if (tag < 0 || count < 0) break;
+      if (tag === EXIF_IFD_POINTER) exifPointer = u32(e + 8);
+      const name = wanted[tag];
+      if (!name || type !== 2 || count === 0 || count > 4096) continue;
+      const start = count <= 4 ? e + 8 : base + u32(e + 8);
+      if (start < 0 || start + count > exif.length) continue;
+      // libvips flattens non-ASCII and trims some punctuation: carry plain ASCII only (CHECKS.md)
+      const text = exif.toString('latin1', start, start + count).replace(/\0+$/, '').trim();
+      if (text && /^[\x20-\x7e]+$/.test(text)) (out[into] ??= {})[name] = text;
     }
-  }
+    return exifPointer;
+  };
+  const ifd0 = u32(base + 4);
+  if (ifd0 < 8) return out;
+  const pointer = readIfd(ifd0, EXIF_KEEP.IFD0, 'IFD0');
+  if (pointer && pointer >= 8) readIfd(pointer, EXIF_KEEP.IFD2, 'IFD2');
   return out;
 }
 
@@ -373,7 +400,7 @@ async function previewSet(pixels: ReducedPixels, sizes: RenderOptions['previews'
   return out;
 }
 
-async function renderFromFull(full: FullPixels, file: Buffer | null, correction: Correction, options: RenderOptions): Promise<RenderResult> {
+async function renderFromFull(full: FullPixels, correction: Correction, options: RenderOptions): Promise<RenderResult> {
   const c = correctionSchema.parse(correction);
   let src: ReducedPixels = full;
   if (options.maxSide && Math.max(full.width, full.height) > options.maxSide) {
@@ -389,7 +416,7 @@ async function renderFromFull(full: FullPixels, file: Buffer | null, correction:
   const data = applyCorrection(src.data, src.channels, luts, inPlace ? src.data : undefined) as Uint8Array;
   const corrected: ReducedPixels = { data, width: src.width, height: src.height, channels: src.channels, depth: 8 };
   let out = rawImage(corrected);
-  const exif = file ? meaningfulExif(file) : {};
+  const exif = meaningfulExif(full.probe.exif);
   if (Object.keys(exif).length > 0) out = out.withExif(exif);
   const [encoded, icc] = await Promise.all([out.jpeg({ quality: options.quality ?? 92, optimiseCoding: options.optimiseCoding ?? false }).toBuffer(), srgbIcc()]);
   const withIcc = embedIcc(encoded, icc);
@@ -417,10 +444,9 @@ async function asBuffer(input: string | Buffer): Promise<Buffer> {
  * @throws {ScanRejected}
  */
 export async function renderCorrected(input: string | Buffer, correction: Correction, options: RenderOptions = {}, limits?: Partial<ScanLimits>): Promise<RenderResult> {
-  const probe = await probeScan(input, limits);
   const file = await asBuffer(input);
-  const full = await loadFull(file, limits, probe);
-  return renderFromFull(full, file, correction, options);
+  const full = await loadFull(file, limits, await probeScan(file, limits));
+  return renderFromFull(full, correction, options);
 }
 
 export interface AnalyseAndRenderOptions extends RenderOptions {
@@ -452,6 +478,6 @@ export async function analyseAndRender(input: string | Buffer, options: AnalyseA
   const analysis = analysePixels(await deriveReduced(full, options.analysisSide ?? 1280));
   const base = options.correction ?? analysis.proposed;
   const correction = { ...base, strength: options.strength ?? base.strength };
-  const render = await renderFromFull(full, file, correction, options);
+  const render = await renderFromFull(full, correction, options);
   return { ...render, probe, analysis, correction };
 }

@@ -8,7 +8,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import sharp from 'sharp';
 import ExifReader from 'exifreader';
-import { ScanRejected, analyseAndRender, loadReduced, probeScan, renderCorrected } from '../../../src/lib/restoration/imaging';
+import { ScanRejected, analyseAndRender, loadReduced, meaningfulExif, probeScan, renderCorrected } from '../../../src/lib/restoration/imaging';
 import { identityCorrection } from '../../../src/lib/restoration/correction';
 import { encodeScene, generateScene } from '../../../src/lib/demo/synthetic';
 
@@ -249,6 +249,12 @@ describe('render output', () => {
     const thumb = await sharp(r.previews!.corrected.thumbnail!).metadata();
     expect(Math.max(thumb.width!, thumb.height!)).toBe(32);
     expect(r.previews!.original.preview).toBeInstanceOf(Buffer);
+  });
+
+  it('reads nothing, and does not throw, from a damaged EXIF block', () => {
+    expect(meaningfulExif(Buffer.from('Exif\0\0II*\0\xff\xff\xff\x7f', 'latin1'))).toEqual({});
+    expect(meaningfulExif(Buffer.from('Exif\0\0MM\0*\0\0\0\x08\x7f\x7f', 'latin1'))).toEqual({});
+    expect(meaningfulExif(undefined)).toEqual({});
   });
 
   it('can render a 16-bit scan smaller than full size', async () => {
