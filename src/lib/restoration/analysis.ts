@@ -121,6 +121,34 @@ interface Rect {
   y1: number;
 }
 
+/**
+ * An analysis copy of at most `longSide` pixels on the long side, taken from full-resolution
+ * pixels by keeping the centre pixel of each block: a tenth of the memory reads of averaging.
+ * The analysis works on histograms and medians, for which a point sample serves as well as a
+ * mean. Always 8-bit RGB.
+ */
+export function samplePixels(full: ReducedPixels, longSide = 1280): ReducedPixels {
+  const f = Math.max(1, Math.ceil(Math.max(full.width, full.height) / longSide));
+  const w = Math.max(1, Math.floor(full.width / f));
+  const h = Math.max(1, Math.floor(full.height / f));
+  const ch = full.channels;
+  const out = new Uint8Array(w * h * 3);
+  const src = full.data;
+  const shift = full.depth === 16 ? 8 : 0;
+  const half = f >> 1;
+  let o = 0;
+  for (let y = 0; y < h; y++) {
+    let i = ((y * f + half) * full.width + half) * ch;
+    const di = f * ch;
+    for (let x = 0; x < w; x++, i += di) {
+      out[o++] = src[i] >> shift;
+      out[o++] = src[i + 1] >> shift;
+      out[o++] = src[i + 2] >> shift;
+    }
+  }
+  return { data: out, width: w, height: h, channels: 3, depth: 8 };
+}
+
 /** 8-bit view of the pixels, whatever their depth. */
 function to8(p: ReducedPixels): { v: Uint8Array; ch: number } {
   if (p.depth === 8 && p.data instanceof Uint8Array) return { v: p.data, ch: p.channels };

@@ -7,7 +7,7 @@
  */
 import { readFile, stat, open } from 'node:fs/promises';
 import sharp from 'sharp';
-import { analysePixels, type Analysis, type ReducedPixels } from './analysis';
+import { analysePixels, samplePixels, type Analysis, type ReducedPixels } from './analysis';
 import { applyCorrection, buildChannelLuts, correctionSchema, type Correction } from './correction';
 import { ScanRejected } from './errors';
 
@@ -467,7 +467,7 @@ export interface AnalyseAndRenderResult extends RenderResult {
 }
 
 /**
- * Decodes a scan once, measures it on a copy reduced in memory, renders the correction and,
+ * Decodes a scan once, measures it on a point-sampled copy of the decoded pixels, renders the correction and,
  * when asked, the previews: the path the command line and the job worker take.
  * @throws {ScanRejected}
  */
@@ -475,7 +475,7 @@ export async function analyseAndRender(input: string | Buffer, options: AnalyseA
   const file = await asBuffer(input);
   const probe = await probeScan(file, options.limits);
   const full = await loadFull(file, options.limits, probe);
-  const analysis = analysePixels(await deriveReduced(full, options.analysisSide ?? 1280));
+  const analysis = analysePixels(samplePixels(full, options.analysisSide ?? 1280));
   const base = options.correction ?? analysis.proposed;
   const correction = { ...base, strength: options.strength ?? base.strength };
   const render = await renderFromFull(full, correction, options);

@@ -91,3 +91,18 @@ describe('poolAnalyses', () => {
     expect(Math.abs(last.dyes.cyan.remainingPercent - want[0])).toBeLessThan(8);
   });
 });
+
+describe('samplePixels', () => {
+  it('gives the same grade and estimates, within a point, as the full-size scene', async () => {
+    const { samplePixels } = await import('../../../src/lib/restoration/analysis');
+    const ageing = AGEING_MODELS.lightFaded(1);
+    const big = agePixels(generateScene({ width: 1800, height: 1200, border: true, seed: 9 }), ageing);
+    const small = samplePixels({ ...big, depth: 8 }, 600);
+    expect([small.width, small.height]).toEqual([600, 400]);
+    const a = analysePixels(asReduced(big));
+    const b = analysePixels(small);
+    expect(b.fadeGrade).toBe(a.fadeGrade);
+    expect(Math.abs(a.dyes.magenta.remainingPercent - b.dyes.magenta.remainingPercent)).toBeLessThan(1);
+    expect(Math.abs(a.dyes.yellow.stainDensity - b.dyes.yellow.stainDensity)).toBeLessThan(0.01);
+  });
+});
