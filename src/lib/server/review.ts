@@ -13,7 +13,7 @@ import { requireArchiveRole } from './access.ts';
 import { recordAudit } from './audit.ts';
 import { config } from './config.ts';
 import { AppError, Conflict, InvalidInput, NotFound } from './errors.ts';
-import { queue } from './queue.ts';
+import { enqueueRender } from './processing.ts';
 import { storage } from './storage.ts';
 import type { Role } from '../auth/roles.ts';
 import {
@@ -28,12 +28,6 @@ import {
 import type { CorrectionVersion, ItemDetail, ItemRow } from '../review/types.ts';
 
 export type { CorrectionVersion, ItemDetail, ItemRow } from '../review/types.ts';
-
-/**
- * The render queue the ingest pipeline works on: data { itemId, version }. Created here when the
- * web server sends to it before the worker has declared it.
- */
-export const RENDER_QUEUE = 'render';
 
 const userNames = new Map<string, string>();
 async function nameOf(userId: string | null | undefined, transaction?: Transaction): Promise<{ id: string; name: string } | null> {
@@ -261,20 +255,10 @@ export async function bulkDecide(locals: App.Locals, batchId: string, input: Bul
   });
 }
 
-let renderQueueReady: Promise<void> | undefined;
-
-/** Queues a render of one correction version on the ingest pipeline's render queue. */
+/** Queues a render of one correction version on the ingest pipeline's render queue (jobs/render.ts). */
 export async function queueRender(itemId: string, version: number): Promise<void> {
-  const boss = await queue();
-  renderQueueReady ??= (async () => {
-    if (!(await boss.getQueue(RENDER_QUEUE))) {
-      await boss.createQueue(RENDER_QUEUE, { name: RENDER_QUEUE, retryLimit: 3, retryDelay: 5, retryBackoff: true }).catch((err) => {
-        if (!/already exists/i.test(String(err?.message))) throw err;
-      });
-    }
-  })();
-  await renderQueueReady;
-  await boss.send(RENDER_QUEUE, { itemId, version }, { singletonKey: `${itemId}:${version}` });
+  const original = await Item.findByPk(itemId, { attributes: ['originalId'] }).then((i) => (i ? Original.findByPk(i.originalId, { attributes: ['width', 'height'] }) : null));
+  await enqueueRender(itemId, version, original?.width && original.height ? original.width * original.height : null);
 }
 
 async function addVersion(
