@@ -46,7 +46,10 @@ async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<voi
       previews: { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE },
       limits: uploadLimits(),
     });
-    const version = 1;
+    // The next free version: 1 for a new print, later for a print whose scan was replaced
+    // (a rescan from the negative). A re-run before the commit below computes the same number
+    // and overwrites the same files; after the commit the item is ready and the run stops above.
+    const version = ((await Correction.max<number, Correction>('version', { where: { itemId: item.id } })) ?? 0) + 1;
     const keys = {
       render: derivedKeys.render(item.id, version),
       preview: derivedKeys.originalPreview(item.id),
@@ -60,25 +63,27 @@ async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<voi
     await store.put(derivedKeys.renderThumbnail(item.id, version), previews.corrected.thumbnail!);
 
     await db().transaction(async (transaction) => {
-      await Correction.findOrCreate({
-        where: { itemId: item.id, version },
-        defaults: { itemId: item.id, version, params: result.correction as unknown as Record<string, unknown>, origin: 'proposed', createdBy: null },
-        transaction,
-      });
-      await Item.update(
+      const current = await Item.findByPk(item.id, { transaction, lock: transaction.LOCK.UPDATE });
+      if (!current || current.state !== 'analysing' || current.originalId !== item.originalId) return;
+      // (item_id, version) is unique: a duplicate run that lost the race fails here and rolls back.
+      await Correction.create({ itemId: item.id, version, params: result.correction as unknown as Record<string, unknown>, origin: 'proposed', createdBy: null }, { transaction });
+      await current.update(
         {
           state: 'ready',
           failureReason: null,
           analysis: result.analysis as unknown as Record<string, unknown>,
           fadeGrade: result.analysis.fadeGrade,
-          currentVersion: item.currentVersion ?? version,
+          currentVersion: version,
           thumbKey: keys.thumbnail,
           previewKey: keys.preview,
           renderKey: keys.render,
           renderVersion: version,
         },
-        { where: { id: item.id }, transaction },
+        { transaction },
       );
+    }).catch((err) => {
+      if ((err as Error)?.name === 'SequelizeUniqueConstraintError') return;
+      throw err;
     });
   } catch (err) {
     if (err instanceof ScanRejected) {

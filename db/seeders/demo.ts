@@ -48,3 +48,4 @@ export async function seedDemo({ withContent = true }: { withContent?: boolean }
 
 /** Later features add demo content (batches of synthetic scans) through these, run after the accounts exist. */
 export const afterSeedHooks: (() => Promise<void>)[] = [];
+afterSeedHooks.push(() => import('./demo-batches.ts').then((m) => m.seedDemoBatches()));

@@ -9,7 +9,6 @@ import { createHash, randomUUID } from 'node:crypto';
 import { open } from 'node:fs/promises';
 import type { Readable } from 'node:stream';
 import ExifReader from 'exifreader';
-import { Op } from 'sequelize';
 import { Batch, Item, Original, db } from '../../../db/index.ts';
 import { probeScan, ScanRejected, type ScanProbe } from '../restoration/imaging.ts';
 import type { UploadLimits, UploadOutcome } from '../batches/schemas.ts';
@@ -126,15 +125,53 @@ function outcomeOf(kind: 'added' | 'duplicate', item: Item, sha256: string, exis
   };
 }
 
-/** Where the same bytes already are in this archive, if they are an item anywhere. */
-async function existingItem(archiveId: string, originalId: string, preferBatch: string): Promise<Item | null> {
-  const items = await Item.findAll({ where: { archiveId, originalId }, order: [['createdAt', 'ASC']] });
-  return items.find((i) => i.batchId === preferBatch) ?? items[0] ?? null;
-}
-
 async function duplicateOutcome(item: Item, sha256: string): Promise<UploadOutcome> {
   const batch = await Batch.findByPk(item.batchId);
   return outcomeOf('duplicate', item, sha256, { batchId: item.batchId, batchName: batch?.name ?? '', seq: item.seq, originalName: item.originalName });
+}
+
+/** What {@link storeScanOriginal} stored, or found already stored. */
+export interface StoredScan {
+  original: Original;
+  sha256: string;
+  probe: ScanProbe;
+  /** False when the same bytes were already an original of this archive. */
+  created: boolean;
+}
+
+/**
+ * Streams one scan into the archive's originals, once: staged and hashed, judged by its bytes
+ * and header, then stored write-once under its SHA-256 (or matched to the original that
+ * already holds the same bytes). Makes no item; {@link ingestScan} and the rescan flow build on it.
+ * @throws {ScanRejected} for a file that is not a scan we can take (type, size, pixels, damaged header)
+ * @throws {TooLarge} when the stream passes the byte limit
+ */
+export async function storeScanOriginal(input: Omit<IngestInput, 'batchId'>): Promise<StoredScan> {
+  const limits = uploadLimits();
+  const store = storage();
+  // Staged under a key of its own, so a refused file never reaches the write-once originals.
+  const stageKey = `incoming/${randomUUID()}.part`;
+  const meter: Meter = { bytes: 0, hash: createHash('sha256'), maxBytes: limits.maxBytes };
+  try {
+    await store.put(stageKey, metered(input.body, meter));
+    if (meter.bytes === 0) throw new ScanRejected('empty', 'The file is empty (0 bytes).');
+    const sha256 = meter.hash.digest('hex');
+    const stagePath = await store.localPath(stageKey);
+    const probe = await probeScan(stagePath, { maxBytes: limits.maxBytes, maxPixels: limits.maxPixels });
+    const existing = await Original.findOne({ where: { archiveId: input.archiveId, sha256 } });
+    if (existing) return { original: existing, sha256, probe, created: false };
+    const format = FORMAT_FILE[probe.format];
+    const blob = await store.putContentAddressed('originals', store.read(stageKey), { maxBytes: limits.maxBytes, ext: format.ext });
+    if (blob.sha256 !== sha256) throw new Error(`checksum changed between staging and storing (${sha256} then ${blob.sha256})`);
+    const exif = await readScanExif(stagePath, probe);
+    const [original, created] = await Original.findOrCreate({
+      where: { archiveId: input.archiveId, sha256 },
+      defaults: { archiveId: input.archiveId, sha256, storageKey: blob.key, bytes: blob.bytes, mime: format.mime, width: probe.width, height: probe.height, exif, createdBy: input.userId },
+    });
+    return { original, sha256, probe, created };
+  } finally {
+    await store.remove(stageKey).catch(() => undefined);
+  }
 }
 
 /**
@@ -145,55 +182,30 @@ async function duplicateOutcome(item: Item, sha256: string): Promise<UploadOutco
  * @throws {TooLarge} when the stream passes the byte limit
  */
 export async function ingestScan(input: IngestInput): Promise<UploadOutcome> {
-  const limits = uploadLimits();
-  const store = storage();
   const name = cleanName(input.name);
-  // Staged under a key of its own, so a refused file never reaches the write-once originals.
-  const stageKey = `incoming/${randomUUID()}.part`;
-  const meter: Meter = { bytes: 0, hash: createHash('sha256'), maxBytes: limits.maxBytes };
-  try {
-    await store.put(stageKey, metered(input.body, meter));
-    if (meter.bytes === 0) throw new ScanRejected('empty', 'The file is empty (0 bytes).');
-    const sha256 = meter.hash.digest('hex');
-    const stagePath = await store.localPath(stageKey);
-    const probe = await probeScan(stagePath, { maxBytes: limits.maxBytes, maxPixels: limits.maxPixels });
-
-    let original = await Original.findOne({ where: { archiveId: input.archiveId, sha256 } });
-    if (original) {
-      const found = await existingItem(input.archiveId, original.id, input.batchId);
-      if (found) return await duplicateOutcome(found, sha256);
-    } else {
-      const format = FORMAT_FILE[probe.format];
-      const blob = await store.putContentAddressed('originals', store.read(stageKey), { maxBytes: limits.maxBytes, ext: format.ext });
-      if (blob.sha256 !== sha256) throw new Error(`checksum changed between staging and storing (${sha256} then ${blob.sha256})`);
-      const exif = await readScanExif(stagePath, probe);
-      [original] = await Original.findOrCreate({
-        where: { archiveId: input.archiveId, sha256 },
-        defaults: { archiveId: input.archiveId, sha256, storageKey: blob.key, bytes: blob.bytes, mime: format.mime, width: probe.width, height: probe.height, exif, createdBy: input.userId },
-      });
-    }
-
-    const originalId = original.id;
-    const result = await db().transaction(async (transaction) => {
-      // The batch row is the lock that hands out sequence numbers one at a time and lets
-      // concurrent uploads of the same file into one batch meet here.
-      await Batch.findByPk(input.batchId, { transaction, lock: transaction.LOCK.UPDATE });
-      const already = await Item.findOne({ where: { batchId: input.batchId, originalId }, transaction });
-      if (already) return { kind: 'duplicate' as const, item: already };
-      const elsewhere = await Item.findOne({ where: { archiveId: input.archiveId, originalId, batchId: { [Op.ne]: input.batchId } }, transaction });
-      if (elsewhere) return { kind: 'duplicate' as const, item: elsewhere };
-      const seq = ((await Item.max<number, Item>('seq', { where: { batchId: input.batchId }, transaction })) ?? 0) + 1;
-      const item = await Item.create({ archiveId: input.archiveId, batchId: input.batchId, originalId, seq, originalName: name }, { transaction });
-      await recordAudit(
-        { archiveId: input.archiveId, actorId: input.userId, action: 'item.ingest', subjectType: 'item', subjectId: item.id, details: { name, sha256, bytes: meter.bytes, batchId: input.batchId }, requestId: input.requestId },
-        transaction,
-      );
-      return { kind: 'added' as const, item };
+  const { original, sha256, probe } = await storeScanOriginal(input);
+  const originalId = original.id;
+  const result = await db().transaction(async (transaction) => {
+    // The batch row is the lock that hands out sequence numbers one at a time and lets
+    // concurrent uploads of the same file meet here.
+    await Batch.findByPk(input.batchId, { transaction, lock: transaction.LOCK.UPDATE });
+    const inThisBatch = await Item.findOne({ where: { batchId: input.batchId, originalId }, transaction });
+    if (inThisBatch) return { kind: 'duplicate' as const, item: inThisBatch };
+    const elsewhere = await Item.findOne({
+      where: { archiveId: input.archiveId, originalId },
+      order: [['createdAt', 'ASC']],
+      transaction,
     });
-    if (result.kind === 'duplicate') return await duplicateOutcome(result.item, sha256);
-    await enqueueAnalyse(result.item.id, probe.storedWidth * probe.storedHeight);
-    return outcomeOf('added', result.item, sha256);
-  } finally {
-    await store.remove(stageKey).catch(() => undefined);
-  }
+    if (elsewhere) return { kind: 'duplicate' as const, item: elsewhere };
+    const seq = ((await Item.max<number, Item>('seq', { where: { batchId: input.batchId }, transaction })) ?? 0) + 1;
+    const item = await Item.create({ archiveId: input.archiveId, batchId: input.batchId, originalId, seq, originalName: name }, { transaction });
+    await recordAudit(
+      { archiveId: input.archiveId, actorId: input.userId, action: 'item.ingest', subjectType: 'item', subjectId: item.id, details: { name, sha256, bytes: original.bytes, batchId: input.batchId }, requestId: input.requestId },
+      transaction,
+    );
+    return { kind: 'added' as const, item };
+  });
+  if (result.kind === 'duplicate') return duplicateOutcome(result.item, sha256);
+  await enqueueAnalyse(result.item.id, probe.storedWidth * probe.storedHeight);
+  return outcomeOf('added', result.item, sha256);
 }

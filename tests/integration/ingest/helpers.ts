@@ -31,7 +31,7 @@ export async function createBatch(client: Client, name: string): Promise<string>
 /** Uploads one file as the raw body, the way the upload island does. */
 export function upload(client: Client, batchId: string, name: string, bytes: Buffer) {
   return client.request('POST', `/api/batches/${batchId}/files`, {
-    body: bytes,
+    body: bytes as unknown as BodyInit,
     headers: { 'content-type': 'application/octet-stream', 'x-file-name': encodeURIComponent(name) },
   });
 }

@@ -1,0 +1,61 @@
+import { useEffect, useState } from 'react';
+import { emptyCounts, isSettled, ITEM_STATE_LABELS, ITEM_STATES, type StateCounts } from '../lib/batches/schemas.ts';
+
+interface Props {
+  batchId: string;
+  /** Counts as the page saw them, shown until the first live update. */
+  initial?: StateCounts;
+  /** Smaller, for lists. */
+  compact?: boolean;
+}
+
+const BAR_CLASS: Record<string, string> = { ready: 'bg-lamp-600', failed: 'bg-danger-700', analysing: 'bg-lamp-500/50', queued: 'bg-paper-300' };
+
+/** Live counts per state of one batch, with a progress bar; updates itself from the batch's event stream. */
+export default function BatchProgress({ batchId, initial, compact = false }: Props) {
+  const [counts, setCounts] = useState<StateCounts>(initial ?? emptyCounts());
+  const [live, setLive] = useState(false);
+
+  useEffect(() => {
+    const source = new EventSource(`/api/batches/${batchId}/events`);
+    source.addEventListener('counts', (e) => {
+      setCounts(JSON.parse((e as MessageEvent).data).counts);
+      setLive(true);
+    });
+    source.onerror = () => setLive(false);
+    return () => source.close();
+  }, [batchId]);
+
+  const done = counts.ready + counts.failed;
+  const percent = counts.total ? Math.round((done / counts.total) * 100) : 0;
+  const settled = isSettled(counts);
+  return (
+    <div data-batch-progress data-settled={settled ? 'true' : 'false'} className={compact ? 'space-y-1' : 'space-y-2'}>
+      <div
+        className="flex h-2.5 w-full overflow-hidden rounded-full bg-paper-100"
+        role="progressbar"
+        aria-label="Scans processed"
+        aria-valuemin={0}
+        aria-valuemax={counts.total}
+        aria-valuenow={done}
+        aria-valuetext={`${done} of ${counts.total} processed`}
+      >
+        {counts.total > 0 && ITEM_STATES.filter((s) => s === 'ready' || s === 'failed' || s === 'analysing').map((s) => (
+          <div key={s} className={BAR_CLASS[s]} style={{ width: `${(counts[s] / counts.total) * 100}%` }} />
+        ))}
+      </div>
+      <p className="text-sm text-ink-700" aria-live="polite">
+        {counts.total === 0 ? 'No scans yet.' : settled ? `All ${counts.total} processed.` : `${done} of ${counts.total} processed (${percent} %).`}
+        {!compact && !live && counts.total > 0 && !settled && <span className="ml-2 text-ink-500">(reconnecting …)</span>}
+      </p>
+      <ul className={`flex flex-wrap gap-x-4 gap-y-1 text-sm ${compact ? 'text-ink-500' : 'text-ink-700'}`}>
+        {ITEM_STATES.map((s) => (
+          <li key={s} data-count={s}>
+            <span className={`mr-1.5 inline-block h-2 w-2 rounded-full ${BAR_CLASS[s]}`} aria-hidden="true" />
+            {ITEM_STATE_LABELS[s]}: <span className="font-medium tabular-nums" data-value>{counts[s]}</span>
+          </li>
+        ))}
+      </ul>
+    </div>
+  );
+}
