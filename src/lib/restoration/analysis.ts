@@ -159,18 +159,18 @@ function to8(p: ReducedPixels): { v: Uint8Array; ch: number } {
 }
 
 function histograms(v: Uint8Array, ch: number, width: number, r: Rect): { h: Uint32Array[]; n: number } {
-  const h = [new Uint32Array(256), new Uint32Array(256), new Uint32Array(256)];
-  let n = 0;
+  const h0 = new Uint32Array(256);
+  const h1 = new Uint32Array(256);
+  const h2 = new Uint32Array(256);
   for (let y = r.y0; y < r.y1; y++) {
-    let i = (y * width + r.x0) * ch;
-    for (let x = r.x0; x < r.x1; x++, i += ch) {
-      h[0][v[i]]++;
-      h[1][v[i + 1]]++;
-      h[2][v[i + 2]]++;
-      n++;
+    const end = (y * width + r.x1) * ch;
+    for (let i = (y * width + r.x0) * ch; i < end; i += ch) {
+      h0[v[i]]++;
+      h1[v[i + 1]]++;
+      h2[v[i + 2]]++;
     }
   }
-  return { h, n };
+  return { h: [h0, h1, h2], n: Math.max(0, r.x1 - r.x0) * Math.max(0, r.y1 - r.y0) };
 }
 
 /** Code value at fraction p of a histogram (0 = darkest code). */
@@ -426,14 +426,20 @@ function fitOnNeutrals(
     depthHist.fill(0);
     let count = 0;
     let depth = 0;
+    const ir = 1 / k[0];
+    const ig = 1 / k[1];
+    const ib = 1 / k[2];
     for (let j = 0; j < m; j++) {
-      const R = dr[j] / k[0];
-      const G = dg[j] / k[1];
-      const B = db[j] / k[2];
+      const G = dg[j] * ig;
       if (G < MIN_NEUTRAL_DENSITY) continue;
-      if (Math.abs(R / G - 1) > tol || Math.abs(B / G - 1) > tol) continue;
-      rgHist[Math.min(bins - 1, Math.round((dr[j] / dg[j]) * RATIO_SCALE))] += G;
-      bgHist[Math.min(bins - 1, Math.round((db[j] / dg[j]) * RATIO_SCALE))] += G;
+      const lo = G * (1 - tol);
+      const hi = G * (1 + tol);
+      const R = dr[j] * ir;
+      const B = db[j] * ib;
+      if (R < lo || R > hi || B < lo || B > hi) continue;
+      const inv = RATIO_SCALE / dg[j];
+      rgHist[Math.min(bins - 1, Math.round(dr[j] * inv))] += G;
+      bgHist[Math.min(bins - 1, Math.round(db[j] * inv))] += G;
       depthHist[Math.min(60, Math.round(G * 20))]++;
       count++;
       if (G > depth) depth = G;
