@@ -60,9 +60,11 @@ function parse(argv: string[]): Options {
 }
 
 /** Files named on the command line are all tried; folders contribute their scans (by extension), recursively, in name order. */
-async function collect(inputs: string[], failures: Failure[]): Promise<string[]> {
+async function collect(inputs: string[], failures: Failure[], outDir: string): Promise<string[]> {
   const files: string[] = [];
   const walk = async (dir: string) => {
+    // a previous run's results inside a folder of scans are not scans
+    if (dir === outDir) return;
     const entries = (await readdir(dir, { withFileTypes: true })).sort((a, b) => a.name.localeCompare(b.name));
     for (const e of entries) {
       if (e.name.startsWith('.')) continue;
@@ -151,7 +153,7 @@ async function main(): Promise<number> {
   sharp.concurrency(1);
 
   const failures: Failure[] = [];
-  const files = await collect(opts.inputs, failures);
+  const files = await collect(opts.inputs, failures, opts.out);
   const names = outputNames(files);
   await mkdir(opts.out, { recursive: true });
   const total = files.length;
