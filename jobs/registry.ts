@@ -3,6 +3,7 @@ import type { AppConfig } from '../src/lib/server/config.ts';
 import { analyseHandler } from './analyse.ts';
 import { renderHandler } from './render.ts';
 import { batchSettledHandler } from './batch-settled.ts';
+import { exportHandler } from './export.ts';
 
 /** One queue's handler as the worker registers it. */
 export interface JobHandler {
@@ -16,3 +17,4 @@ export interface JobHandler {
 /** Every handler the worker runs; each lives in its own file under jobs/. */
 export const HANDLERS: JobHandler[] = [];
 HANDLERS.push(analyseHandler, renderHandler, batchSettledHandler);
+HANDLERS.push(exportHandler);

@@ -1,16 +1,17 @@
 /**
  * Ingest a folder of scans into a batch, through the same ingest service as the web upload:
  *   npm run ingest -- --archive <slug> --batch <name> [--as <email>] [--watch] <folder>
+ *   npm run ingest -- --item <id> [--as <email>] <file>   (a rescan from the negative)
  * With --watch it keeps going as a scanner writes new files, taking each one only once its size
  * has stopped changing. The batch is made when it does not exist yet. Progress goes to stdout,
  * one line per file; refused files are reported with their reason and make the exit status 1.
  */
 import { createReadStream } from 'node:fs';
 import { readdir, stat } from 'node:fs/promises';
-import { join, relative, resolve } from 'node:path';
+import { basename, join, relative, resolve } from 'node:path';
 import { parseArgs } from 'node:util';
 import { watch } from 'chokidar';
-import { Archive, Batch, Membership, User, closeDb, db } from '../../db/index.ts';
+import { Archive, Batch, Item, Membership, User, closeDb, db } from '../../db/index.ts';
 import { roleAtLeast } from '../lib/auth/roles.ts';
 import { batchCreateSchema } from '../lib/batches/schemas.ts';
 import { ScanRejected } from '../lib/restoration/errors.ts';
@@ -18,8 +19,10 @@ import { createBatch } from '../lib/server/batches.ts';
 import { AppError } from '../lib/server/errors.ts';
 import { ingestScan } from '../lib/server/ingest.ts';
 import { stopQueue } from '../lib/server/queue.ts';
+import { attachRescanAs } from '../lib/server/rescans.ts';
 
 const USAGE = `Usage: npm run ingest -- --archive <slug> --batch <name> [--as <email>] [--watch] <folder>
+       npm run ingest -- --item <id> [--as <email>] <file>
 
   --archive <slug>      the archive to add the scans to (for example: hartigan)
   --batch <name>        the batch; made when there is none of that name yet
@@ -27,6 +30,8 @@ const USAGE = `Usage: npm run ingest -- --archive <slug> --batch <name> [--as <e
   --source-kind <kind>  for a new batch: box, drawer, album, envelope or other (default box)
   --source-label <text> for a new batch: the label of the box, drawer, album or envelope
   --watch               keep watching the folder for new scans until Ctrl-C
+  --item <id>           attach <file>, the scan of a print's negative, to that item: it becomes
+                        the current image and the print scan is kept
   --help                show this text`;
 
 /** Files that are never scans: the scanner's and the operating system's own. */
@@ -45,12 +50,17 @@ function options() {
       'source-kind': { type: 'string' },
       'source-label': { type: 'string' },
       watch: { type: 'boolean', default: false },
+      item: { type: 'string' },
       help: { type: 'boolean', short: 'h', default: false },
     },
   });
   if (values.help) {
     console.log(USAGE);
     process.exit(0);
+  }
+  if (values.item) {
+    if (positionals.length !== 1) throw new UsageError('with --item, give exactly one file: the scan of the negative');
+    return { kind: 'rescan' as const, item: values.item, as: values.as, file: resolve(positionals[0]) };
   }
   if (!values.archive) throw new UsageError('--archive <slug> is required');
   if (!values.batch) throw new UsageError('--batch <name> is required');
@@ -88,8 +98,31 @@ async function listFiles(dir: string): Promise<string[]> {
   return out;
 }
 
+/** --item: the negative's scan becomes the item's current image (src/lib/server/rescans.ts). */
+async function attachRescanFromFile(opts: { item: string; as?: string; file: string }): Promise<number> {
+  const st = await stat(opts.file).catch(() => null);
+  if (!st?.isFile()) throw new UsageError(`${opts.file} is not a file`);
+  db();
+  const item = /^[0-9a-f-]{36}$/i.test(opts.item) ? await Item.findByPk(opts.item.toLowerCase()) : null;
+  if (!item) throw new UsageError(`there is no item ${opts.item}`);
+  const user = await actingUser(item.archiveId, opts.as);
+  try {
+    const r = await attachRescanAs({ itemId: item.id, userId: user.id, name: basename(opts.file), body: createReadStream(opts.file) });
+    console.log(`attached   ${basename(opts.file)} to print #${item.seq} (item ${r.itemId}); the print scan is kept; the worker analyses the rescan now.`);
+    return 0;
+  } catch (err) {
+    if (err instanceof ScanRejected || err instanceof AppError) {
+      console.log(`refused    ${basename(opts.file)}: ${err.message}`);
+      return 1;
+    }
+    throw err;
+  }
+}
+
 async function main(): Promise<number> {
-  const opts = options();
+  const parsed = options();
+  if (parsed.kind === 'rescan') return attachRescanFromFile(parsed);
+  const opts = parsed;
   const st = await stat(opts.folder).catch(() => null);
   if (!st?.isDirectory()) throw new UsageError(`${opts.folder} is not a folder`);
   db();

@@ -144,6 +144,13 @@ export function parsePrintDate(input: string): PrintDate {
   if (v.type === 'List' || v.type === 'Set') {
     throw new DateNotUnderstood(input, 'Lists and sets of dates are not supported: give one date or a span such as 1980/1985.');
   }
+  if (v.type === 'Century') {
+    // EDTF reads two digits as a century: "81" would be the 8100s, never what a family means.
+    throw new DateNotUnderstood(input, `"${text}" reads as a century in EDTF; write the full year (1981) or 19XX for the 1900s.`);
+  }
+  const latest = new Date().getUTCFullYear() + 1;
+  const firstYear = v.type === 'Interval' ? Number(v.lower?.values?.[0] ?? v.upper?.values?.[0]) : yearOf(v);
+  if (Number.isFinite(firstYear) && firstYear > latest) throw new DateNotUnderstood(input, `${text} is in the future; a print's date is in the past.`);
   if (v.type === 'Interval') {
     const lower = knownEnd(v.lower);
     const upper = knownEnd(v.upper);

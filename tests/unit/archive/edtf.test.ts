@@ -58,7 +58,8 @@ describe('EDTF dates of prints', () => {
   });
 
   it('explains what it cannot read instead of guessing', () => {
-    for (const bad of ['nonsense', '1981-13', 'summer 81', '', '[1981,1982]']) {
+    // "81" is a century in EDTF level 2 (the 8100s): refused rather than misread.
+    for (const bad of ['nonsense', '1981-13', 'summer 81', '', '[1981,1982]', '81', '2999']) {
       const r = describePrintDate(bad);
       expect(r.ok, bad).toBe(false);
       if (!r.ok) expect(r.message.length).toBeGreaterThan(10);

@@ -1,0 +1,363 @@
+/**
+ * Exports of the family archive: corrected JPEGs with their captions embedded, in folders by
+ * year, optionally the untouched originals alongside, and a CSV of every print, packed as a
+ * BagIt bag (RFC 8493) in a zip that is streamed to storage and checked after writing. The
+ * work runs on the `export` queue (jobs/export.ts); progress is kept on the export's row.
+ */
+import { createHash } from 'node:crypto';
+import { PassThrough } from 'node:stream';
+import { stringify } from 'csv-stringify/sync';
+import sharp from 'sharp';
+import { Op, QueryTypes } from 'sequelize';
+import { z } from 'zod';
+import { Archive, ArchiveExport, Batch, Item, Original, User, db } from '../../../db/index.ts';
+import type { ExportOptions, ExportSelection } from '../../../db/models/ArchiveExport.ts';
+import { checkBag, describeBagReport } from '../archive/bagit.ts';
+import { parsePrintDate, type PrintDate } from '../archive/edtf.ts';
+import { buildExif, buildXmp, type EmbeddedMetadata } from '../archive/embed.ts';
+import { DEFAULT_NAME_PATTERN, NameBook, baseName, folderFor, namePatternSchema } from '../archive/naming.ts';
+import { requireArchiveRole, requireCurrentArchive, requireUser } from './access.ts';
+import { recordAudit } from './audit.ts';
+import { ZipBagWriter, zipBagSource } from './bag-files.ts';
+import { peopleOf } from './captions.ts';
+import { config } from './config.ts';
+import { Conflict, InvalidInput, NotFound } from './errors.ts';
+import { linkMail, sendMail } from './mailer.ts';
+import { DEAD_LETTER_QUEUE, declareQueue, queue } from './queue.ts';
+import { storage } from './storage.ts';
+
+/** The export queue: one job per export, retried a little, given an hour for a large archive. */
+export const EXPORT_QUEUE = declareQueue({
+  name: 'export',
+  options: { retryLimit: 2, retryDelay: 30, retryBackoff: true, expireInSeconds: 3600, retentionDays: 7, deadLetter: DEAD_LETTER_QUEUE },
+});
+
+export interface ExportJob {
+  exportId: string;
+}
+
+const ACCEPTED = ['accepted', 'accepted_adjusted'] as const;
+
+/** What the export form sends. */
+export const exportRequestSchema = z
+  .object({
+    selection: z.discriminatedUnion('kind', [
+      z.object({ kind: z.literal('items'), itemIds: z.array(z.string().uuid('Not an item id.')).min(1, 'Choose at least one print.').max(20000) }).strict(),
+      z.object({ kind: z.literal('batch'), batchId: z.string().uuid('Not a batch id.') }).strict(),
+      z.object({ kind: z.literal('since_last') }).strict(),
+    ]),
+    includeOriginals: z.boolean().default(false),
+    namePattern: namePatternSchema.default(DEFAULT_NAME_PATTERN),
+  })
+  .strict();
+export type ExportRequest = z.infer<typeof exportRequestSchema>;
+
+/** An export as the API and the page show it. */
+export interface ExportStatus {
+  id: string;
+  state: 'queued' | 'running' | 'ready' | 'failed';
+  selection: ExportSelection;
+  options: ExportOptions;
+  items: number;
+  progress: { done: number; total: number; percent: number };
+  zipBytes: number | null;
+  zipSha256: string | null;
+  verified: boolean;
+  failureReason: string | null;
+  createdAt: string;
+  finishedAt: string | null;
+  downloadUrl: string | null;
+  statusUrl: string;
+}
+
+/** Shapes an export row for the API. */
+export function exportStatus(e: ArchiveExport): ExportStatus {
+  const total = e.progressTotal;
+  return {
+    id: e.id,
+    state: e.state,
+    selection: e.selection,
+    options: e.options ?? {},
+    items: e.itemIds.length,
+    progress: { done: e.progressDone, total, percent: total ? Math.min(100, Math.round((100 * e.progressDone) / total)) : e.state === 'ready' ? 100 : 0 },
+    zipBytes: e.zipBytes ?? null,
+    zipSha256: e.zipSha256 ?? null,
+    verified: Boolean(e.verifiedAt),
+    failureReason: e.failureReason ?? null,
+    createdAt: e.createdAt.toISOString(),
+    finishedAt: e.finishedAt ? e.finishedAt.toISOString() : null,
+    downloadUrl: e.state === 'ready' && e.zipKey ? `/api/exports/${e.id}/download` : null,
+    statusUrl: `/api/exports/${e.id}`,
+  };
+}
+
+/** When the last export that finished started: "since the last export" counts from there. */
+async function lastExportStart(archiveId: string): Promise<Date | null> {
+  const last = await ArchiveExport.findOne({ where: { archiveId, state: 'ready' }, order: [['createdAt', 'DESC']] });
+  return last ? (last.startedAt ?? last.createdAt) : null;
+}
+
+/**
+ * The prints a selection stands for, in batch and scan order: chosen prints (each must have a
+ * corrected image), a batch's accepted prints, or every print accepted (or recaptioned) since
+ * the last export.
+ */
+export async function resolveSelection(archiveId: string, selection: ExportSelection): Promise<string[]> {
+  const order: [string, string][] = [['batchId', 'ASC'], ['seq', 'ASC']];
+  if (selection.kind === 'items') {
+    const ids = [...new Set(selection.itemIds.map((i) => i.toLowerCase()))];
+    const items = await Item.findAll({ where: { id: { [Op.in]: ids }, archiveId }, attributes: ['id', 'renderKey', 'seq', 'batchId'], order });
+    const missing = ids.filter((id) => !items.some((i) => i.id === id));
+    if (missing.length) throw new InvalidInput('Some of the chosen prints are not in this archive.', { 'selection.itemIds': `Unknown: ${missing.slice(0, 5).join(', ')}` });
+    const unrendered = items.filter((i) => !i.renderKey);
+    if (unrendered.length) throw new Conflict(`${unrendered.length} of the chosen prints have no corrected image yet; wait for their analysis to finish.`, 'not_ready');
+    return items.map((i) => i.id);
+  }
+  if (selection.kind === 'batch') {
+    const batch = await Batch.findOne({ where: { id: selection.batchId, archiveId } });
+    if (!batch) throw new NotFound('That batch');
+    const items = await Item.findAll({ where: { batchId: batch.id, decision: { [Op.in]: [...ACCEPTED] }, renderKey: { [Op.ne]: null } }, attributes: ['id'], order });
+    return items.map((i) => i.id);
+  }
+  const since = await lastExportStart(archiveId);
+  const where: Record<string | symbol, unknown> = { archiveId, decision: { [Op.in]: [...ACCEPTED] }, renderKey: { [Op.ne]: null } };
+  if (since) where[Op.or] = [{ decidedAt: { [Op.gt]: since } }, { metadataUpdatedAt: { [Op.gt]: since } }];
+  const items = await Item.findAll({ where, attributes: ['id'], order });
+  return items.map((i) => i.id);
+}
+
+/** How many prints each choice would take now (for the export form). */
+export async function selectionCounts(archiveId: string): Promise<{ sinceLast: number; lastExportAt: string | null; batches: { id: string; name: string; accepted: number }[] }> {
+  const since = await lastExportStart(archiveId);
+  const sinceLast = (await resolveSelection(archiveId, { kind: 'since_last' })).length;
+  const batches = await db().query<{ id: string; name: string; n: string }>(
+    `SELECT b.id, b.name, count(i.id) FILTER (WHERE i.decision IN ('accepted', 'accepted_adjusted') AND i.render_key IS NOT NULL) AS n
+       FROM batches b LEFT JOIN items i ON i.batch_id = b.id WHERE b.archive_id = :archiveId GROUP BY b.id ORDER BY b.created_at DESC`,
+    { replacements: { archiveId }, type: QueryTypes.SELECT },
+  );
+  return { sinceLast, lastExportAt: since ? since.toISOString() : null, batches: batches.map((b) => ({ id: b.id, name: b.name, accepted: Number(b.n) })) };
+}
+
+/** Prints ready to be chosen one by one: those with a corrected image, accepted ones first. */
+export async function exportablePrints(archiveId: string, limit = 500): Promise<{ id: string; batchName: string; seq: number; caption: string | null; dateEdtf: string | null; decision: string | null; thumbnailUrl: string }[]> {
+  const rows = await db().query<Record<string, unknown>>(
+    `SELECT i.id, b.name AS batch_name, i.seq, i.caption, i.date_edtf, i.decision FROM items i JOIN batches b ON b.id = i.batch_id
+      WHERE i.archive_id = :archiveId AND i.render_key IS NOT NULL
+      ORDER BY (i.decision IN ('accepted', 'accepted_adjusted')) DESC NULLS LAST, b.created_at DESC, i.seq LIMIT :limit`,
+    { replacements: { archiveId, limit }, type: QueryTypes.SELECT },
+  );
+  return rows.map((r) => ({
+    id: r.id as string,
+    batchName: r.batch_name as string,
+    seq: Number(r.seq),
+    caption: (r.caption as string | null) ?? null,
+    dateEdtf: (r.date_edtf as string | null) ?? null,
+    decision: (r.decision as string | null) ?? null,
+    thumbnailUrl: `/api/items/${r.id}/thumbnail`,
+  }));
+}
+
+/** Records an export and queues its job (editors). */
+export async function requestExport(locals: App.Locals, input: ExportRequest): Promise<ExportStatus> {
+  const m = requireCurrentArchive(locals, 'editor');
+  const itemIds = await resolveSelection(m.archiveId, input.selection);
+  if (!itemIds.length) throw new Conflict('Nothing to export: no accepted prints with a corrected image in that choice.', 'nothing_to_export');
+  const e = await ArchiveExport.create({
+    archiveId: m.archiveId,
+    requestedBy: locals.user!.id,
+    selection: input.selection,
+    options: { includeOriginals: input.includeOriginals, namePattern: input.namePattern },
+    itemIds,
+    progressTotal: itemIds.length,
+  });
+  await recordAudit({ archiveId: m.archiveId, actorId: locals.user!.id, action: 'export.request', subjectType: 'export', subjectId: e.id, details: { selection: input.selection.kind, items: itemIds.length, includeOriginals: input.includeOriginals }, requestId: locals.requestId });
+  const boss = await queue();
+  await boss.createQueue(EXPORT_QUEUE.name, { name: EXPORT_QUEUE.name, ...EXPORT_QUEUE.options }).catch((err: Error) => {
+    if (!/already exists/i.test(String(err?.message))) throw err;
+  });
+  await boss.send(EXPORT_QUEUE.name, { exportId: e.id } satisfies ExportJob);
+  return exportStatus(e);
+}
+
+/** The export `id` if the caller holds `role` in its archive (404 for another archive's). */
+export async function exportForCaller(locals: App.Locals, id: string, role: 'viewer' | 'editor'): Promise<ArchiveExport> {
+  requireUser(locals);
+  const e = await ArchiveExport.findByPk(id);
+  if (!e || !locals.memberships.some((m) => m.archiveId === e.archiveId)) throw new NotFound('That export');
+  requireArchiveRole(locals, e.archiveId, role, 'That export');
+  return e;
+}
+
+/** An archive's exports, newest first. */
+export async function listExports(archiveId: string, limit = 30): Promise<ExportStatus[]> {
+  const rows = await ArchiveExport.findAll({ where: { archiveId }, order: [['createdAt', 'DESC']], limit });
+  return rows.map(exportStatus);
+}
+
+/** The file name a downloaded export gets. */
+export function exportFileName(archiveSlug: string, e: ArchiveExport): string {
+  return `${bagBaseName(archiveSlug, e)}.zip`;
+}
+
+function bagBaseName(archiveSlug: string, e: ArchiveExport): string {
+  return `${archiveSlug}-export-${e.createdAt.toISOString().slice(0, 10)}-${e.id.slice(0, 8)}`;
+}
+
+/** Storage key of an export's zip. */
+export const exportKey = (e: ArchiveExport) => `exports/${e.archiveId}/${e.id}.zip`;
+
+const CSV_COLUMNS = [
+  'file', 'original_file', 'print_scan_file', 'seq', 'caption', 'date_edtf', 'date_in_words', 'place', 'people', 'source_kind', 'source_label', 'envelope',
+  'text_on_back', 'batch', 'scan_file_name', 'original_sha256', 'print_scan_sha256', 'decision', 'item_id',
+];
+
+/** The EXIF DateTimeDigitized form of the scan date the original's EXIF recorded, if any. */
+function scanDateOf(o: Original | null): string | null {
+  const v = (o?.exif as Record<string, unknown> | undefined)?.scanDate;
+  return typeof v === 'string' ? v : null;
+}
+
+function dateOf(edtf: string | null | undefined): PrintDate | null {
+  if (!edtf) return null;
+  try {
+    return parsePrintDate(edtf);
+  } catch {
+    return null;
+  }
+}
+
+const EXT = { 'image/jpeg': '.jpg', 'image/png': '.png', 'image/tiff': '.tif' } as Record<string, string>;
+
+/** One corrected JPEG with the metadata embedded (re-encoded once by sharp at high quality). */
+async function embeddedJpeg(renderPath: string, meta: EmbeddedMetadata): Promise<Buffer> {
+  return sharp(renderPath)
+    .withIccProfile('srgb')
+    .withExif(buildExif(meta))
+    .withXmp(buildXmp(meta))
+    .jpeg({ quality: 95, chromaSubsampling: '4:2:0' })
+    .toBuffer();
+}
+
+/**
+ * Runs one export: writes the bag into a zip streamed to storage, print by print (one in flight),
+ * keeps progress on the row, verifies the zip's bag, and tells the requester. Idempotent: a
+ * finished export is left alone; a retried one starts its zip again under the same key.
+ */
+export async function runExport(exportId: string): Promise<void> {
+  const e = await ArchiveExport.findByPk(exportId);
+  if (!e || e.state === 'ready') return;
+  const archive = await Archive.findByPk(e.archiveId);
+  if (!archive) return;
+  await e.update({ state: 'running', startedAt: e.startedAt ?? new Date(), progressDone: 0, progressTotal: e.itemIds.length, failureReason: null });
+
+  const store = storage();
+  const key = exportKey(e);
+  const out = new PassThrough();
+  const stored = store.put(key, out);
+  const base = bagBaseName(archive.slug, e);
+  const bag = new ZipBagWriter(base, out);
+  const opts = e.options ?? {};
+  const pattern = opts.namePattern ?? DEFAULT_NAME_PATTERN;
+  const names = new NameBook();
+  const records: string[][] = [CSV_COLUMNS];
+  let done = 0;
+  let lastSaved = 0;
+  let lastSavedAt = Date.now();
+  try {
+    // Items are read in pages, so a large archive's rows are not all held at once.
+    const PAGE = 50;
+    for (let start = 0; start < e.itemIds.length; start += PAGE) {
+      const ids = e.itemIds.slice(start, start + PAGE);
+      const items = await Item.findAll({ where: { id: { [Op.in]: ids } } });
+      const byId = new Map(items.map((i) => [i.id, i]));
+      const people = await peopleOf(ids);
+      const batches = new Map((await Batch.findAll({ where: { id: [...new Set(items.map((i) => i.batchId))] } })).map((b) => [b.id, b]));
+      for (const id of ids) {
+        const item = byId.get(id);
+        done++;
+        if (!item || !item.renderKey) continue;
+        const batch = batches.get(item.batchId);
+        const [original, printOriginal] = await Promise.all([Original.findByPk(item.originalId), item.printOriginalId ? Original.findByPk(item.printOriginalId) : Promise.resolve(null)]);
+        const date = dateOf(item.dateEdtf);
+        const source = [batch ? `${batch.sourceKind}${batch.sourceLabel ? ` ${batch.sourceLabel}` : ''}` : '', item.envelope ?? ''].filter(Boolean).join(', ');
+        const meta: EmbeddedMetadata = { caption: item.caption ?? null, date, place: item.place ?? null, people: people.get(item.id) ?? [], source: source || null, backText: item.backText ?? null, scannedAt: scanDateOf(original) };
+        const folder = folderFor(date);
+        const nameBase = baseName(pattern, { date, caption: item.caption ?? null, seq: done, batch: batch?.name ?? null, originalName: item.originalName });
+        const photoPath = names.claim(`photos/${folder}`, nameBase, '.jpg');
+        const jpeg = await embeddedJpeg(await store.localPath(item.renderKey), meta);
+        await bag.addPayload(photoPath, jpeg, { store: true });
+        let originalPath = '';
+        let printPath = '';
+        if (opts.includeOriginals && original) {
+          originalPath = names.claim(`originals/${folder}`, nameBase, EXT[original.mime] ?? '.bin');
+          await bag.addPayload(originalPath, store.read(original.storageKey), { store: true });
+          if (printOriginal) {
+            printPath = names.claim(`originals/${folder}`, `${nameBase} print scan`, EXT[printOriginal.mime] ?? '.bin');
+            await bag.addPayload(printPath, store.read(printOriginal.storageKey), { store: true });
+          }
+        }
+        records.push([
+          photoPath, originalPath, printPath, String(done), item.caption ?? '', item.dateEdtf ?? '', date?.words ?? '', item.place ?? '', (people.get(item.id) ?? []).join('; '),
+          batch?.sourceKind ?? '', batch?.sourceLabel ?? '', item.envelope ?? '', item.backText ?? '', batch?.name ?? '', item.originalName, original?.sha256 ?? '', printOriginal?.sha256 ?? '',
+          item.decision ?? '', item.id,
+        ]);
+        // Saving progress for every print would cost a write per print; a few per second are enough for the bar.
+        if (done - lastSaved >= Math.max(1, Math.floor(e.itemIds.length / 100)) || Date.now() - lastSavedAt > 500) {
+          lastSaved = done;
+          lastSavedAt = Date.now();
+          await ArchiveExport.update({ progressDone: done }, { where: { id: e.id } });
+        }
+      }
+    }
+    await bag.addPayload('photos.csv', Buffer.from('\ufeff' + stringify(records), 'utf8'));
+    await bag.finish([
+      ['Source-Organization', archive.name],
+      ['External-Description', `Photographs of the ${archive.name}: corrected JPEGs with captions embedded (XMP), ${opts.includeOriginals ? 'the untouched scans alongside, ' : ''}and photos.csv listing every print.`],
+      ['External-Identifier', e.id],
+      ['Bag-Software-Agent', 'Drawerlight'],
+    ]);
+    const written = await stored;
+
+    // The bag is checked as a reader will find it: from the zip on disk, every checksum recomputed.
+    const source = await zipBagSource(await store.localPath(key));
+    let report;
+    try {
+      report = await checkBag(source);
+    } finally {
+      source.close();
+    }
+    if (!report.ok) throw new Error(`The written bag failed its check: ${describeBagReport(report).slice(0, 5).join('; ')}`);
+    const zipSha = await sha256Of(key);
+    await e.update({ state: 'ready', progressDone: e.itemIds.length, zipKey: key, zipBytes: written.bytes, zipSha256: zipSha, verifiedAt: new Date(), finishedAt: new Date() });
+  } catch (err) {
+    bag.abort();
+    out.destroy();
+    await stored.catch(() => undefined);
+    await store.remove(key).catch(() => undefined);
+    await e.update({ state: 'failed', failureReason: String((err as Error)?.message ?? err).slice(0, 1000), finishedAt: new Date() });
+    throw err;
+  }
+  await notifyReady(e, archive);
+}
+
+async function sha256Of(key: string): Promise<string> {
+  const hash = createHash('sha256');
+  for await (const chunk of storage().read(key)) hash.update(chunk as Buffer);
+  return hash.digest('hex');
+}
+
+async function notifyReady(e: ArchiveExport, archive: Archive): Promise<void> {
+  const user = e.requestedBy ? await User.findByPk(e.requestedBy) : null;
+  if (!user) return;
+  const mb = ((e.zipBytes ?? 0) / 1048576).toFixed(1);
+  await sendMail(
+    linkMail(
+      user.email,
+      `Your export of the ${archive.name} is ready`,
+      `The export you asked for is ready: ${e.itemIds.length} prints, ${mb} MB, packed as a BagIt bag and checked after writing (every checksum matched).`,
+      'Download it from the export page',
+      `${config().appUrl}/export#export-${e.id}`,
+      'Keep at least three copies on two kinds of media, one of them elsewhere, and check the checksums now and then (npm run verify-bag).',
+    ),
+  );
+}

@@ -1,0 +1,37 @@
+import { FILE_NAME_HEADER } from '../../../../lib/batches/schemas.ts';
+import { ScanRejected } from '../../../../lib/restoration/errors.ts';
+import { idParam } from '../../../../lib/server/access.ts';
+import { printForCaller } from '../../../../lib/server/captions.ts';
+import { InvalidInput, TooLarge } from '../../../../lib/server/errors.ts';
+import { apiRoute, errorResponse, json } from '../../../../lib/server/http.ts';
+import { uploadLimits } from '../../../../lib/server/ingest.ts';
+import { attachRescan } from '../../../../lib/server/rescans.ts';
+
+/**
+ * Attaches the scan of a print's negative (editors): the raw file is the body, its name in the
+ * X-File-Name header, as for an upload. 202: the rescan is stored and queued for analysis; it
+ * becomes the current image when done, and the print scan is kept.
+ */
+export const POST = apiRoute(async ({ locals, params, request }) => {
+  const id = idParam(params.id, 'That print');
+  await printForCaller(locals, id, 'editor');
+  const raw = request.headers.get(FILE_NAME_HEADER);
+  if (!raw) throw new InvalidInput(`Name the file in the ${FILE_NAME_HEADER} header (URI-encoded).`, { [FILE_NAME_HEADER]: 'Required.' });
+  let name = raw;
+  try {
+    name = decodeURIComponent(raw);
+  } catch {
+    /* keep the raw header */
+  }
+  const declared = Number(request.headers.get('content-length') ?? NaN);
+  const limits = uploadLimits();
+  if (Number.isFinite(declared) && declared > limits.maxBytes) throw new TooLarge(`The file is ${Math.round(declared / 1048576)} MB; the limit is ${Math.round(limits.maxBytes / 1048576)} MB.`);
+  if (!request.body) throw new InvalidInput('The request has no file in its body.');
+  try {
+    const result = await attachRescan(locals, { itemId: id, name, body: request.body as unknown as AsyncIterable<Uint8Array> });
+    return json(result, 202, { location: `/api/items/${id}` });
+  } catch (err) {
+    if (err instanceof ScanRejected) return errorResponse(err.status, err.code, err.message, { file: name });
+    throw err;
+  }
+});

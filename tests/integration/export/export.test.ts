@@ -1,0 +1,211 @@
+import { execFile } from 'node:child_process';
+import fs from 'node:fs/promises';
+import os from 'node:os';
+import path from 'node:path';
+import { promisify } from 'node:util';
+import ExifReader from 'exifreader';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import yauzl from 'yauzl';
+import { closeDb } from '../../../db/index.ts';
+import { listOutbox } from '../../../src/lib/server/outbox.ts';
+import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
+import { batchWithPrints, decide, downloadBytes, sha256, waitExport } from './helpers.ts';
+
+const run = promisify(execFile);
+let a: TestArchive;
+let other: TestArchive;
+let itemIds: string[];
+let batchId: string;
+let zipBytes: Buffer;
+let files: Map<string, Buffer>;
+let base: string;
+let tmp: string;
+
+/** Every entry of a zip, read with yauzl (independent of the writer). */
+function unzip(buf: Buffer): Promise<Map<string, Buffer>> {
+  return new Promise((resolve, reject) => {
+    yauzl.fromBuffer(buf, { lazyEntries: true }, (err, zip) => {
+      if (err || !zip) return reject(err);
+      const out = new Map<string, Buffer>();
+      zip.on('entry', (e: yauzl.Entry) => {
+        if (e.fileName.endsWith('/')) return zip.readEntry();
+        zip.openReadStream(e, (err2, s) => {
+          if (err2 || !s) return reject(err2);
+          const chunks: Buffer[] = [];
+          s.on('data', (c) => chunks.push(c));
+          s.on('end', () => {
+            out.set(e.fileName, Buffer.concat(chunks));
+            zip.readEntry();
+          });
+        });
+      });
+      zip.on('end', () => resolve(out));
+      zip.readEntry();
+    });
+  });
+}
+
+beforeAll(async () => {
+  a = await makeArchive('export');
+  other = await makeArchive('export-other');
+  const editor = asToken(a.editor);
+  ({ batchId, itemIds } = await batchWithPrints(editor, 'Export box', 3, 31));
+  await editor.patch(`/api/items/${itemIds[0]}/metadata`, { caption: 'Großmutter Zoë am See (Łódź) — „Picknick“', dateEdtf: '1981-07-15', place: 'Lough Arrow', people: ['Zoë Hartigan', 'Ōta Hiro'] });
+  await editor.patch(`/api/items/${itemIds[1]}/metadata`, { caption: 'The new car', dateEdtf: '198X', place: 'Sligo' });
+  // The third print stays without a date: it goes to the undated folder.
+  for (const id of itemIds) await decide(editor, id, 'accepted');
+  const r = await editor.post('/api/exports', { selection: { kind: 'batch', batchId }, includeOriginals: true });
+  expect(r.status).toBe(202);
+  expect(r.headers.get('location')).toBe(`/api/exports/${r.body.id}`);
+  const done = await waitExport(editor, r.headers.get('location')!);
+  expect(done).toMatchObject({ state: 'ready', verified: true, items: 3 });
+  const dl = await downloadBytes(editor, done.downloadUrl);
+  expect(dl.status).toBe(200);
+  expect(dl.headers.get('content-type')).toBe('application/zip');
+  zipBytes = dl.bytes;
+  expect(sha256(zipBytes)).toBe(done.zipSha256);
+  files = await unzip(zipBytes);
+  base = [...files.keys()][0].split('/')[0];
+  tmp = await fs.mkdtemp(path.join(os.tmpdir(), 'dl-bag-'));
+}, 400_000);
+afterAll(async () => {
+  await closeDb();
+  if (tmp) await fs.rm(tmp, { recursive: true, force: true });
+});
+
+const inBag = (p: string) => files.get(`${base}/${p}`);
+
+describe('the exported bag follows RFC 8493', () => {
+  it('holds one bag folder with bagit.txt exactly as §2.1.1 gives it', () => {
+    expect([...files.keys()].every((k) => k.startsWith(`${base}/`))).toBe(true);
+    expect(inBag('bagit.txt')!.toString('utf8')).toBe('BagIt-Version: 1.0\nTag-File-Character-Encoding: UTF-8\n');
+  });
+
+  it('lists every payload file in manifest-sha256.txt with its right SHA-256, and nothing else', () => {
+    const payload = [...files.keys()].filter((k) => k.startsWith(`${base}/data/`)).map((k) => k.slice(base.length + 1));
+    const lines = inBag('manifest-sha256.txt')!.toString('utf8').trim().split('\n');
+    const listed = new Map(lines.map((l) => { const i = l.indexOf(' '); return [l.slice(i + 1), l.slice(0, i)]; }));
+    expect([...listed.keys()].sort()).toEqual(payload.sort());
+    for (const p of payload) expect(listed.get(p), p).toBe(sha256(inBag(p)!));
+    // 3 corrected JPEGs, 3 originals, the CSV
+    expect(payload.length).toBe(7);
+  });
+
+  it('gives Payload-Oxum as total octets and count, and a YYYY-MM-DD Bagging-Date with the archive name', () => {
+    const payload = [...files.keys()].filter((k) => k.startsWith(`${base}/data/`));
+    const octets = payload.reduce((s, k) => s + files.get(k)!.length, 0);
+    const info = inBag('bag-info.txt')!.toString('utf8');
+    expect(info).toContain(`Payload-Oxum: ${octets}.${payload.length}\n`);
+    expect(info).toMatch(/^Bagging-Date: \d{4}-\d{2}-\d{2}$/m);
+    expect(info).toContain(`Source-Organization: ${a.name}`);
+  });
+
+  it('covers every tag file in tagmanifest-sha256.txt', () => {
+    const lines = inBag('tagmanifest-sha256.txt')!.toString('utf8').trim().split('\n');
+    const listed = new Map(lines.map((l) => { const i = l.indexOf(' '); return [l.slice(i + 1), l.slice(0, i)]; }));
+    expect([...listed.keys()].sort()).toEqual(['bag-info.txt', 'bagit.txt', 'manifest-sha256.txt']);
+    for (const [p, h] of listed) expect(h).toBe(sha256(inBag(p)!));
+  });
+
+  it('files prints by year, decade and undated, named by date, caption and number', () => {
+    const photos = [...files.keys()].filter((k) => k.includes('/data/photos/')).map((k) => k.split('/data/photos/')[1]).sort();
+    expect(photos).toEqual(['1980s/1980s The new car 0002.jpg', '1981/1981-07-15 Großmutter Zoë am See (Łódź) — „Picknick“ 0001.jpg', 'undated/undated 0003.jpg'].sort());
+  });
+
+  it('lists every print with its metadata in photos.csv, accents intact', () => {
+    const csv = inBag('data/photos.csv')!.toString('utf8');
+    expect(csv.split('\n').filter(Boolean)).toHaveLength(4);
+    expect(csv).toContain('Zoë Hartigan; Ōta Hiro');
+    expect(csv).toContain('15 July 1981');
+  });
+});
+
+describe('metadata embedded in the exported JPEGs', () => {
+  it('reads back caption, people, place and an exact date with exifreader, non-ASCII intact', () => {
+    const key = [...files.keys()].find((k) => k.includes('/photos/1981/'))!;
+    const tags = ExifReader.load(files.get(key)!, { expanded: true }) as any;
+    expect(tags.xmp.description.description).toBe('Großmutter Zoë am See (Łódź) — „Picknick“');
+    expect(tags.xmp.subject.value.map((v: any) => v.description)).toEqual(['Zoë Hartigan', 'Ōta Hiro', 'Lough Arrow']);
+    expect(tags.xmp.DateCreated.description).toBe('1981-07-15');
+    // EXIF DateTimeOriginal form "YYYY:MM:DD HH:MM:SS" (CHECKS.md), only for an exact day.
+    expect(tags.exif.DateTimeOriginal.description).toBe('1981:07:15 00:00:00');
+  });
+
+  it('writes no EXIF DateTimeOriginal and no photoshop:DateCreated for "the 1980s"', () => {
+    const key = [...files.keys()].find((k) => k.includes('/photos/1980s/'))!;
+    const tags = ExifReader.load(files.get(key)!, { expanded: true }) as any;
+    expect(tags.xmp.description.description).toBe('The new car');
+    expect(tags.exif?.DateTimeOriginal).toBeUndefined();
+    expect(tags.xmp.DateCreated).toBeUndefined();
+    expect(tags.exif.ImageDescription.description).toBe('The new car');
+  });
+});
+
+describe('npm run verify-bag', () => {
+  async function unpacked(name: string): Promise<string> {
+    const dir = path.join(tmp, name);
+    for (const [k, buf] of files) {
+      const p = path.join(dir, k.slice(base.length + 1));
+      await fs.mkdir(path.dirname(p), { recursive: true });
+      await fs.writeFile(p, buf);
+    }
+    return dir;
+  }
+  const verify = (target: string) => run(process.execPath, ['--import', 'tsx', 'src/scripts/verify-bag.ts', target]).then((r) => ({ code: 0, out: r.stdout }), (e) => ({ code: e.code as number, out: String(e.stdout) }));
+
+  it('passes the zip as downloaded and its unpacked folder', async () => {
+    const zipPath = path.join(tmp, 'export.zip');
+    await fs.writeFile(zipPath, zipBytes);
+    expect((await verify(zipPath)).code).toBe(0);
+    const r = await verify(await unpacked('clean'));
+    expect(r.code).toBe(0);
+    expect(r.out).toMatch(/ok: 7 payload files/);
+  });
+
+  it('catches one changed byte, one missing and one extra file, naming each, and exits non-zero', async () => {
+    const dir = await unpacked('damaged');
+    const photos = (await fs.readdir(path.join(dir, 'data/photos/1981')));
+    const changed = path.join(dir, 'data/photos/1981', photos[0]);
+    const buf = await fs.readFile(changed);
+    buf[Math.floor(buf.length / 2)] ^= 0x01;
+    await fs.writeFile(changed, buf);
+    await fs.rm(path.join(dir, 'data/photos.csv'));
+    await fs.writeFile(path.join(dir, 'data/photos/stray.jpg'), 'not in the manifest');
+    const r = await verify(dir);
+    expect(r.code).toBe(1);
+    expect(r.out).toContain(`changed: data/photos/1981/${photos[0]}`);
+    expect(r.out).toContain('missing: data/photos.csv');
+    expect(r.out).toContain('extra: data/photos/stray.jpg');
+  });
+});
+
+describe('who may export', () => {
+  it('lets viewers neither start nor download exports, and hides exports from another archive (404)', async () => {
+    const list = await asToken(a.editor).get('/api/exports');
+    const id = list.body.exports[0].id;
+    expect((await asToken(a.viewer).post('/api/exports', { selection: { kind: 'since_last' } })).status).toBe(403);
+    expect((await downloadBytes(asToken(a.viewer), `/api/exports/${id}/download`)).status).toBe(403);
+    expect((await downloadBytes(asToken(other.owner), `/api/exports/${id}/download`)).status).toBe(404);
+    expect((await asToken(other.owner).get(`/api/exports/${id}`)).status).toBe(404);
+  });
+
+  it('refuses a bad choice with 400 and an empty one with 409', async () => {
+    const editor = asToken(a.editor);
+    expect((await editor.post('/api/exports', { selection: { kind: 'everything' } })).status).toBe(400);
+    expect((await editor.post('/api/exports', { selection: { kind: 'batch', batchId }, namePattern: '{date}' })).status).toBe(400);
+    // Everything was exported just now, so nothing is new since the last export.
+    const r = await editor.post('/api/exports', { selection: { kind: 'since_last' } });
+    expect(r.status).toBe(409);
+    expect(r.body.error.code).toBe('nothing_to_export');
+  });
+
+  it('tells the requester by e-mail when the export is ready (the outbox of the mail fake)', async () => {
+    let mails: Awaited<ReturnType<typeof listOutbox>> = [];
+    for (let i = 0; i < 20 && mails.length === 0; i++) {
+      mails = (await listOutbox()).filter((m) => m.to.includes(a.editor.email) && /export of the .* is ready/i.test(m.subject));
+      if (!mails.length) await new Promise((r) => setTimeout(r, 500));
+    }
+    expect(mails.length).toBeGreaterThanOrEqual(1);
+    expect(mails[0].text).toMatch(/\/export#export-/);
+  });
+});
