@@ -67,13 +67,30 @@ async function perScan(label: string, fn: (file: string, bytes: Buffer) => Promi
   return best;
 }
 
-/** Runs the command line as a child process, polling its peak RSS (VmHWM) from /proc. */
-function runCli(out: string, preload: boolean, inputs: string[] = files): Promise<{ ms: number; peakMb: number; code: number | null; stderr: string }> {
+const GNU_TIME = '/usr/bin/time';
+
+interface CliRun {
+  ms: number;
+  peakMb: number;
+  /** user + system CPU of the command line, when GNU time is there to tell. */
+  cpuMs?: number;
+  code: number | null;
+  stderr: string;
+}
+
+/**
+ * Runs the command line as a child process. Under GNU time (Debian's `time` package) its peak RSS
+ * and CPU come from the kernel's accounting; otherwise peak RSS is polled from /proc (VmHWM).
+ */
+function runCli(out: string, preload: boolean, inputs: string[] = files): Promise<CliRun> {
   return new Promise((resolvePromise) => {
     const env = { ...process.env };
     if (preload) env.LD_PRELOAD = JEMALLOC;
+    const command = [process.execPath, '--import', 'tsx', join(ROOT, 'src/scripts/correct.ts'), '--out', out, ...inputs];
+    const timed = existsSync(GNU_TIME);
+    const [exe, ...args] = timed ? [GNU_TIME, '-f', 'bench-time %e %U %S %M', ...command] : command;
     const t0 = performance.now();
-    const child = spawn(process.execPath, ['--import', 'tsx', join(ROOT, 'src/scripts/correct.ts'), '--out', out, ...inputs], { cwd: ROOT, env, stdio: ['ignore', 'ignore', 'pipe'] });
+    const child = spawn(exe, args, { cwd: ROOT, env, stdio: ['ignore', 'ignore', 'pipe'] });
     let stderr = '';
     child.stderr.on('data', (d) => (stderr += d));
     let peakKb = 0;
@@ -87,7 +104,10 @@ function runCli(out: string, preload: boolean, inputs: string[] = files): Promis
     }, 20);
     child.on('exit', (code) => {
       clearInterval(poll);
-      resolvePromise({ ms: performance.now() - t0, peakMb: peakKb / 1024, code, stderr });
+      const ms = performance.now() - t0;
+      const m = /bench-time ([\d.]+) ([\d.]+) ([\d.]+) (\d+)/.exec(stderr);
+      if (m) resolvePromise({ ms, peakMb: Number(m[4]) / 1024, cpuMs: (Number(m[2]) + Number(m[3])) * 1000, code, stderr });
+      else resolvePromise({ ms, peakMb: peakKb / 1024, code, stderr });
     });
   });
 }
@@ -99,6 +119,11 @@ async function main(): Promise<void> {
   console.log('\nin process, one libvips thread, one scan at a time:');
   const bareSizes = new Map<string, number>();
   const bare = await perScan('bare decode -> JPEG q92 encode (sharp defaults)', async (f) => bareSizes.set(f, (await sharp(f).jpeg({ quality: 92 }).toBuffer()).length));
+  const cpu0 = process.cpuUsage();
+  for (const f of files) await sharp(f).jpeg({ quality: 92 }).toBuffer();
+  const cpu1 = process.cpuUsage(cpu0);
+  const bareCpu = (cpu1.user + cpu1.system) / 1000 / files.length;
+  console.log(`${'  its CPU (user + system), one more pass'.padEnd(50)} ${bareCpu.toFixed(1).padStart(7)} ms/scan`);
   const bareStd = await perScan('  same, standard Huffman tables', (f) => sharp(f).jpeg({ quality: 92, optimiseCoding: false }).toBuffer());
   const decodeOnly = await perScan('full decode to raw (oriented, sRGB)', (_, b) => loadFull(b));
   const shrink = await perScan('analysis copy by shrink-on-load decode', (_, b) => loadReduced(b, 1280));
@@ -143,6 +168,9 @@ async function main(): Promise<void> {
   console.log(`bare_standard_tables_ms: ${bareStd.toFixed(1)}; cli_ratio_to_bare_standard_tables: ${(cli.ms / (bareStd * files.length)).toFixed(3)}`);
   console.log(`cli_wall_ms: ${cli.ms.toFixed(0)} (fastest of ${PASSES} runs; ${(cli.ms / files.length).toFixed(1)} ms/scan, process start included)`);
   console.log(`bare_single_thread_ms_total: ${(bare * files.length).toFixed(0)}`);
+  if (cli.cpuMs !== undefined) {
+    console.log(`cli_cpu_ms: ${cli.cpuMs.toFixed(0)} (${(cli.cpuMs / files.length).toFixed(1)} ms/scan, start included); bare_cpu_ms_total: ${(bareCpu * files.length).toFixed(0)}; cli_cpu_ratio_to_bare: ${(cli.cpuMs / (bareCpu * files.length)).toFixed(3)}`);
+  }
   rmSync(work, { recursive: true, force: true });
   console.log(`load average at end: ${loadavg().map((x) => x.toFixed(2)).join(' ')}`);
   console.log(`cli_ratio_to_bare: ${(cli.ms / (bare * files.length)).toFixed(3)}`);
