@@ -96,9 +96,9 @@ describe('samplePixels', () => {
   it('gives the same grade and estimates, within a point, as the full-size scene', async () => {
     const { samplePixels } = await import('../../../src/lib/restoration/analysis');
     const ageing = AGEING_MODELS.lightFaded(1);
-    const big = agePixels(generateScene({ width: 1800, height: 1200, border: true, seed: 9 }), ageing);
-    const small = samplePixels({ ...big, depth: 8 }, 600);
-    expect([small.width, small.height]).toEqual([600, 400]);
+    const big = agePixels(generateScene({ width: 960, height: 640, border: true, seed: 9 }), ageing);
+    const small = samplePixels({ ...big, depth: 8 }, 480);
+    expect([small.width, small.height]).toEqual([480, 320]);
     const a = analysePixels(asReduced(big));
     const b = analysePixels(small);
     expect(b.fadeGrade).toBe(a.fadeGrade);
