@@ -241,6 +241,8 @@ export interface EncodeOptions {
   /** 16 bits per channel (PNG and TIFF only). */
   sixteenBit?: boolean;
   progressive?: boolean;
+  /** Write a one-channel greyscale file (for a monochrome scene, as a black-and-white scanner mode would). */
+  greyscale?: boolean;
 }
 
 /** Encodes scene pixels with sharp. */
@@ -248,7 +250,8 @@ export async function encodeScene(pixels: ScenePixels, options: EncodeOptions): 
   let img = sharp(Buffer.from(pixels.data.buffer, pixels.data.byteOffset, pixels.data.byteLength), {
     raw: { width: pixels.width, height: pixels.height, channels: 3 },
   });
-  if (options.sixteenBit && options.format !== 'jpeg') img = img.toColourspace('rgb16');
+  if (options.greyscale) img = img.toColourspace(options.sixteenBit && options.format !== 'jpeg' ? 'grey16' : 'b-w');
+  else if (options.sixteenBit && options.format !== 'jpeg') img = img.toColourspace('rgb16');
   if (options.format === 'jpeg') return img.jpeg({ quality: options.quality ?? 92, progressive: options.progressive ?? false }).toBuffer();
   if (options.format === 'png') return img.png({ compressionLevel: 3 }).toBuffer();
   return img.tiff({ compression: 'lzw' }).toBuffer();
@@ -258,5 +261,5 @@ export async function encodeScene(pixels: ScenePixels, options: EncodeOptions): 
 export async function syntheticScan(options: SceneOptions & { ageing?: Ageing } & Partial<EncodeOptions>): Promise<Buffer> {
   const scene = generateScene(options);
   const pixels = options.ageing ? agePixels(scene, options.ageing) : scene;
-  return encodeScene(pixels, { format: options.format ?? 'jpeg', quality: options.quality, sixteenBit: options.sixteenBit, progressive: options.progressive });
+  return encodeScene(pixels, { format: options.format ?? 'jpeg', quality: options.quality, sixteenBit: options.sixteenBit, progressive: options.progressive, greyscale: options.greyscale });
 }

@@ -211,6 +211,16 @@ describe('unusual but valid scans', () => {
     expect((await sharp(r.buffer).metadata()).channels).toBe(3);
   });
 
+  it('takes a 16-bit greyscale PNG of a black-and-white print and leaves it neutral', async () => {
+    const png = await encodeScene(generateScene({ width: 300, height: 200, monochrome: true, border: true }), { format: 'png', greyscale: true, sixteenBit: true });
+    expect((await probeScan(png)).bitsPerChannel).toBe(16);
+    const r = await analyseAndRender(png);
+    expect(r.analysis.fadeGrade).toBe('none');
+    const stats = await sharp(r.buffer).stats();
+    expect(stats.channels).toHaveLength(3);
+    expect(Math.abs(stats.channels[0].mean - stats.channels[2].mean)).toBeLessThan(1);
+  });
+
   it('flattens a PNG with alpha on white paper', async () => {
     const rgba = new Uint8Array(CARD_W * CARD_H * 4);
     for (let i = 0; i < rgba.length; i += 4) rgba.set([20, 20, 20, i < rgba.length / 2 ? 255 : 0], i);
