@@ -3,7 +3,13 @@
  * the `edtf` package and put into plain words: "about 1981", "the 1980s", "summer 1981",
  * "between 1980 and 1985". Pure code, shared by the server and the caption form in the browser.
  */
-import edtf, { type EdtfValue } from 'edtf';
+import edtf, { parse, type EdtfValue } from 'edtf';
+
+/**
+ * The kind of a parsed value, from the grammar's parse tree. EDTF.js's own `type` getter returns
+ * the class name, which a minifier renames in the browser bundle, so it is never read.
+ */
+type Kind = 'Date' | 'Year' | 'Decade' | 'Century' | 'Season' | 'Interval' | 'List' | 'Set' | string;
 
 const MONTHS = ['January', 'February', 'March', 'April', 'May', 'June', 'July', 'August', 'September', 'October', 'November', 'December'];
 /** ISO 8601-2 sub-year groupings 21–24 (seasons), 33–36 (quarters), 40–41 (halves). */
@@ -63,17 +69,17 @@ function qualified(v: EdtfValue, core: string): string {
 }
 
 /** The earliest year of a point (a decade "198" starts in 1980). */
-function yearOf(v: EdtfValue): number {
+function yearOf(v: EdtfValue, kind: Kind): number {
   const first = Number(v.values[0]);
-  if (v.type === 'Decade') return first * 10;
-  if (v.type === 'Century') return first * 100;
+  if (kind === 'Decade') return first * 10;
+  if (kind === 'Century') return first * 100;
   return first;
 }
 
 /** Words for one point in time (a Date, Season, Decade or Century of EDTF.js). */
-function pointWords(v: EdtfValue): string {
-  const year = yearOf(v);
-  switch (v.type) {
+function pointWords(v: EdtfValue, kind: Kind): string {
+  const year = yearOf(v, kind);
+  switch (kind) {
     case 'Season': {
       const g = GROUPINGS[Number(v.values[1])] ?? `season ${v.values[1]} of`;
       return qualified(v, `${g} ${year}`);
@@ -102,19 +108,19 @@ function pointWords(v: EdtfValue): string {
   return qualified(v, `${Number(v.values[2])} ${month} ${year}`);
 }
 
-function folderOf(v: EdtfValue): string {
-  const year = yearOf(v);
-  if (v.type === 'Decade' || v.type === 'Century') return `${year}s`;
+function folderOf(v: EdtfValue, kind: Kind): string {
+  const year = yearOf(v, kind);
+  if (kind === 'Decade' || kind === 'Century') return `${year}s`;
   const mask = (v.unspecified?.value ?? 0) & YEAR_DIGITS;
   if (mask === 0b1000 || mask === 0b1100) return `${year}s`;
   return String(year);
 }
 
-function xmpDateOf(v: EdtfValue): string | null {
-  if (v.type === 'Decade' || v.type === 'Century') return null;
+function xmpDateOf(v: EdtfValue, kind: Kind): string | null {
+  if (kind === 'Decade' || kind === 'Century') return null;
   if (bits(v.unspecified, YEAR_DIGITS)) return null;
-  const year = pad(yearOf(v), 4);
-  if (v.type === 'Season' || v.type === 'Year') return year;
+  const year = pad(yearOf(v, kind), 4);
+  if (kind === 'Season' || kind === 'Year') return year;
   const precision = v.precision ?? v.values.length;
   if (precision === 1 || bits(v.unspecified, MONTH_DIGITS)) return year;
   const month = pad(Number(v.values[1]) + 1);
@@ -122,8 +128,8 @@ function xmpDateOf(v: EdtfValue): string | null {
   return `${year}-${month}-${pad(Number(v.values[2]))}`;
 }
 
-function isExact(v: EdtfValue): boolean {
-  return v.type === 'Date' && (v.precision ?? 0) === 3 && !bits(v.approximate, ~0) && !bits(v.uncertain, ~0) && !bits(v.unspecified, ~0);
+function isExact(v: EdtfValue, kind: Kind): boolean {
+  return kind === 'Date' && (v.precision ?? 0) === 3 && !bits(v.approximate, ~0) && !bits(v.uncertain, ~0) && !bits(v.unspecified, ~0);
 }
 
 /**
@@ -136,55 +142,63 @@ export function parsePrintDate(input: string): PrintDate {
   const text = input.trim();
   if (!text) throw new DateNotUnderstood(input, 'Write a date, or leave the field empty.');
   let v: EdtfValue;
+  let tree: { type: Kind; values: unknown[] };
   try {
+    tree = parse(text) as typeof tree;
     v = edtf(text);
   } catch {
     throw new DateNotUnderstood(input, `"${text}" is not an EDTF date: try 1981, 1981-07, 1981~ (about), 198X (the 1980s) or 1980/1985.`);
   }
-  if (v.type === 'List' || v.type === 'Set') {
+  const kind = tree.type;
+  if (kind === 'List' || kind === 'Set') {
     throw new DateNotUnderstood(input, 'Lists and sets of dates are not supported: give one date or a span such as 1980/1985.');
   }
-  if (v.type === 'Century') {
+  if (kind === 'Century') {
     // EDTF reads two digits as a century: "81" would be the 8100s, never what a family means.
     throw new DateNotUnderstood(input, `"${text}" reads as a century in EDTF; write the full year (1981) or 19XX for the 1900s.`);
   }
   const latest = new Date().getUTCFullYear() + 1;
-  const firstYear = v.type === 'Interval' ? Number(v.lower?.values?.[0] ?? v.upper?.values?.[0]) : yearOf(v);
+  const firstYear = kind === 'Interval' ? Number(v.lower?.values?.[0] ?? v.upper?.values?.[0]) : yearOf(v, kind);
   if (Number.isFinite(firstYear) && firstYear > latest) throw new DateNotUnderstood(input, `${text} is in the future; a print's date is in the past.`);
-  if (v.type === 'Interval') {
+  if (kind === 'Interval') {
     const lower = knownEnd(v.lower);
     const upper = knownEnd(v.upper);
+    const ends = tree.values as ({ type: Kind } | null)[];
+    const lk: Kind = ends[0]?.type ?? 'Date';
+    const uk: Kind = ends[1]?.type ?? 'Date';
+    if (lk === 'Century' || uk === 'Century') throw new DateNotUnderstood(input, `"${text}" has a century at one end; write full years, e.g. 1980/1985.`);
     const openStart = text.startsWith('..');
     const openEnd = text.endsWith('..');
     if (!lower && !upper) throw new DateNotUnderstood(input, 'A span needs at least one known end, e.g. 1980/1985 or /1985.');
     let words: string;
     if (lower && upper) {
-      const a = pointWords(lower);
-      const b = pointWords(upper);
+      const a = pointWords(lower, lk);
+      const b = pointWords(upper, uk);
       words = a === b ? a : `between ${a} and ${b}`;
-    } else if (upper) words = openStart ? `${pointWords(upper)} or earlier` : `by ${pointWords(upper)} (start unknown)`;
-    else words = openEnd ? `${pointWords(lower!)} or later` : `from ${pointWords(lower!)} (end unknown)`;
+    } else if (upper) words = openStart ? `${pointWords(upper, uk)} or earlier` : `by ${pointWords(upper, uk)} (start unknown)`;
+    else words = openEnd ? `${pointWords(lower!, lk)} or later` : `from ${pointWords(lower!, lk)} (end unknown)`;
     const first = lower ?? upper!;
-    const sameYear = lower && upper && yearOf(lower) === yearOf(upper) && !bits(lower.unspecified, YEAR_DIGITS);
+    const fk = lower ? lk : uk;
+    const sameYear = lower && upper && yearOf(lower, lk) === yearOf(upper, uk) && !bits(lower.unspecified, YEAR_DIGITS);
     return {
       edtf: v.edtf,
       words,
       exact: false,
-      year: yearOf(first),
-      folder: folderOf(first),
-      xmpDate: sameYear ? pad(yearOf(lower!), 4) : null,
+      year: yearOf(first, fk),
+      folder: folderOf(first, fk),
+      xmpDate: sameYear ? pad(yearOf(lower!, lk), 4) : null,
       exifDate: null,
     };
   }
-  const exact = isExact(v);
+  const exact = isExact(v, kind);
   return {
     edtf: v.edtf,
-    words: pointWords(v),
+    words: pointWords(v, kind),
     exact,
-    year: yearOf(v),
-    folder: folderOf(v),
-    xmpDate: xmpDateOf(v),
-    exifDate: exact ? `${pad(yearOf(v), 4)}:${pad(Number(v.values[1]) + 1)}:${pad(Number(v.values[2]))} 00:00:00` : null,
+    year: yearOf(v, kind),
+    folder: folderOf(v, kind),
+    xmpDate: xmpDateOf(v, kind),
+    exifDate: exact ? `${pad(yearOf(v, kind), 4)}:${pad(Number(v.values[1]) + 1)}:${pad(Number(v.values[2]))} 00:00:00` : null,
   };
 }
 
