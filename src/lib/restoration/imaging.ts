@@ -8,7 +8,7 @@
 import { readFile, stat, open } from 'node:fs/promises';
 import sharp from 'sharp';
 import { analysePixels, samplePixels, type Analysis, type ReducedPixels } from './analysis';
-import { applyCorrection, buildChannelLuts, correctionSchema, type Correction } from './correction';
+import { applyCorrection, buildChannelLuts, correctionSchema, isIdentity, type Correction } from './correction';
 import { ScanRejected } from './errors';
 
 export { ScanRejected } from './errors';
@@ -410,10 +410,11 @@ async function renderFromFull(full: FullPixels, correction: Correction, options:
       .toBuffer({ resolveWithObject: true });
     src = { data: full.depth === 16 ? new Uint16Array(data.buffer.slice(data.byteOffset, data.byteOffset + data.length)) : new Uint8Array(data.buffer, data.byteOffset, data.length), width: info.width, height: info.height, channels: info.channels, depth: full.depth };
   }
-  const luts = buildChannelLuts(c, src.depth, 8);
+  // an unfaded print on 8-bit pixels needs no per-pixel pass at all
+  const untouched = isIdentity(c) && src.depth === 8;
   // 8-bit pixels are corrected in place unless the originals are still wanted for previews
   const inPlace = src.depth === 8 && !options.previews;
-  const data = applyCorrection(src.data, src.channels, luts, inPlace ? src.data : undefined) as Uint8Array;
+  const data = untouched ? (src.data as Uint8Array) : (applyCorrection(src.data, src.channels, buildChannelLuts(c, src.depth, 8), inPlace ? src.data : undefined) as Uint8Array);
   const corrected: ReducedPixels = { data, width: src.width, height: src.height, channels: src.channels, depth: 8 };
   let out = rawImage(corrected);
   const exif = meaningfulExif(full.probe.exif);
