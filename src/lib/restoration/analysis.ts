@@ -530,13 +530,15 @@ export function analysePixels(reduced: ReducedPixels): Analysis {
     // a highlight that is dark, scattered or few in number is a poor stand-in for paper
     paperConfidence = 0.6 * clamp(1 - hl.spread / 0.15, 0, 1) * clamp((0.35 - bright) / 0.25, 0, 1) * clamp(hl.count / 50, 0, 1);
   }
-  const paperD = paperCodes.map((c) => densityFromReflectance(srgbDecode(c / 255))) as Triplet;
+  let paperD = paperCodes.map((c) => densityFromReflectance(srgbDecode(c / 255))) as Triplet;
   const paperFloor = Math.min(...paperD);
   let stain = paperD.map((d) => d - paperFloor) as Triplet;
   // Stain is a yellowing: it raises blue density most and red least. A highlight that is bluish or
-  // reddish instead is scene content (sky, a lamp), not paper: keep it and claim no stain.
+  // reddish instead is scene content (sky, a lamp), not paper: claim no stain, and measure the
+  // dyes from a neutral base rather than from that colour.
   if (method === 'highlight' && (stain[2] < Math.max(stain[0], stain[1]) - 0.01 || stain[0] > stain[1] + 0.02)) {
     stain = [0, 0, 0];
+    paperD = [paperFloor, paperFloor, paperFloor];
     paperConfidence = Math.min(paperConfidence, 0.15);
   }
   if (paperConfidence < 0.1) method = method === 'border' ? method : 'not_found';
@@ -554,8 +556,8 @@ export function analysePixels(reduced: ReducedPixels): Analysis {
 
   const fit = fitOnNeutrals(v, ch, w, inner, paperD, firstGuess);
   const retention = fit?.retention ?? firstGuess;
-  // trust grows with the share of near-neutral pixels and with how deep they reach
-  // and shrinks when the neutrals tell a very different story from the shadows
+  // trust grows with the share of near-neutral pixels, how deep and how wide in density they
+  // reach, and shrinks when the neutrals tell a very different story from the shadows
   const disagreement = fit ? Math.max(...fit.retention.map((k, c) => Math.abs(k - firstGuess[c]))) : 0;
   const neutralTrust = fit
     ? clamp(fit.share / 0.02, 0, 1) * clamp(fit.depth / 1.0, 0, 1) * clamp(fit.spread / 0.6, 0, 1) * clamp(1 - (disagreement - 0.1) / 0.2, 0.3, 1)
