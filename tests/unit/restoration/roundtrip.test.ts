@@ -97,7 +97,7 @@ describe('round trip through JPEG', () => {
     [false, 1],
   ])('brings a yellowed black-and-white print back neutral (border: %s, severity %s)', async (border, sev) => {
     const r = await roundTrip({ border, monochrome: true, ageing: AGEING_MODELS.yellowedMonochrome(sev) });
-    figures.push(`yellowed b&w ${sev}, border ${border}: ${r.before.toFixed(2)} / ${r.engine.toFixed(2)} / ${r.stretch.toFixed(2)}`);
+
     let chroma = 0;
     let agedChroma = 0;
     let n = 0;
@@ -108,6 +108,7 @@ describe('round trip through JPEG', () => {
       agedChroma += Math.hypot(labAged[1], labAged[2]);
       n++;
     }
+    figures.push(`yellowed b&w ${sev}, border ${border}: ${r.before.toFixed(2)} / ${r.engine.toFixed(2)} / ${r.stretch.toFixed(2)}; mean C*ab ${(agedChroma / n).toFixed(2)} -> ${(chroma / n).toFixed(2)}`);
     // neutral: mean chroma C*ab under 1.5 (about one just-noticeable difference), from a clearly yellow start
     expect(agedChroma / n).toBeGreaterThan(5);
     expect(chroma / n).toBeLessThan(1.5);
