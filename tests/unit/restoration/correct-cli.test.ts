@@ -1,18 +1,21 @@
 /** The `correct` command line, run as the archivist would, on a small invented batch. */
-import { describe, expect, it } from 'vitest';
+import { afterAll, describe, expect, it } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { existsSync, mkdirSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { AGEING_MODELS, syntheticScan } from '../../../src/lib/demo/synthetic';
 
 const ROOT = fileURLToPath(new URL('../../..', import.meta.url));
+const dirs: string[] = [];
+afterAll(() => dirs.forEach((d) => rmSync(d, { recursive: true, force: true })));
 const run = (args: string[]) => spawnSync(process.execPath, ['--import', 'tsx', join(ROOT, 'src/scripts/correct.ts'), ...args], { cwd: ROOT, encoding: 'utf8', timeout: 60_000 });
 
 describe('npm run correct', () => {
   it('corrects every readable scan, explains the unreadable one in one line, and exits 1 at the end', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'drawerlight-cli-'));
+    dirs.push(dir);
     mkdirSync(join(dir, 'box 3'));
     writeFileSync(join(dir, 'box 3', 'lake.jpg'), await syntheticScan({ width: 300, height: 200, border: true, ageing: AGEING_MODELS.darkStorage(1) }));
     writeFileSync(join(dir, 'box 3', 'garden.png'), await syntheticScan({ width: 300, height: 200, format: 'png' }));

@@ -2,8 +2,8 @@
  * Bad and unusual input: every case gives a correct result or a ScanRejected with a plain
  * message, never a crash or a hang. Images are built here with sharp from invented pixels.
  */
-import { describe, expect, it } from 'vitest';
-import { mkdtempSync, writeFileSync } from 'node:fs';
+import { afterAll, describe, expect, it } from 'vitest';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import sharp from 'sharp';
@@ -13,6 +13,7 @@ import { identityCorrection } from '../../../src/lib/restoration/correction';
 import { encodeScene, generateScene } from '../../../src/lib/demo/synthetic';
 
 const dir = mkdtempSync(join(tmpdir(), 'drawerlight-imaging-'));
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 async function rejection(p: Promise<unknown>): Promise<ScanRejected> {
   try {
