@@ -12,6 +12,7 @@
  * Ends with `export_seconds` and `export_peak_rss_mb`.
  */
 import { readFileSync } from 'node:fs';
+import { Readable } from 'node:stream';
 import sharp from 'sharp';
 import { Batch, Item, Original, closeDb } from '../../db/index.ts';
 import { AGEING_MODELS, agePixels, encodeScene, generateScene } from '../../src/lib/demo/synthetic.ts';
@@ -57,7 +58,7 @@ async function main() {
     const jpeg = await encodeScene(agePixels(scenes[i % 2], AGEING_MODELS.darkStorage(severity)), { format: 'jpeg', quality: 92 });
     firstRender ??= jpeg;
     bytes += jpeg.length;
-    const blob = await store.putContentAddressed('originals', [jpeg], { ext: '.jpg' });
+    const blob = await store.putContentAddressed('originals', Readable.from([jpeg]), { ext: '.jpg' });
     const original = await Original.create({ archiveId: archive.id, sha256: blob.sha256, storageKey: blob.key, bytes: blob.bytes, mime: 'image/jpeg', width: WIDTH, height: HEIGHT, createdBy: archive.editor.id });
     const item = await Item.create({
       archiveId: archive.id, batchId: batch.id, originalId: original.id, seq: i + 1, originalName: `scan-${i + 1}.jpg`, state: 'ready',

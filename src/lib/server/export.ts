@@ -272,19 +272,36 @@ export async function runExport(exportId: string): Promise<void> {
       const byId = new Map(items.map((i) => [i.id, i]));
       const people = await peopleOf(ids);
       const batches = new Map((await Batch.findAll({ where: { id: [...new Set(items.map((i) => i.batchId))] } })).map((b) => [b.id, b]));
-      for (const id of ids) {
-        const item = byId.get(id);
-        done++;
-        if (!item || !item.renderKey) continue;
+      const originalIds = [...new Set(items.flatMap((i) => [i.originalId, i.printOriginalId ?? null]).filter((x): x is string => Boolean(x)))];
+      const originals = new Map((await Original.findAll({ where: { id: originalIds } })).map((o) => [o.id, o]));
+      const metaOf = (item: Item): EmbeddedMetadata => {
         const batch = batches.get(item.batchId);
-        const [original, printOriginal] = await Promise.all([Original.findByPk(item.originalId), item.printOriginalId ? Original.findByPk(item.printOriginalId) : Promise.resolve(null)]);
-        const date = dateOf(item.dateEdtf);
         const source = [batch ? `${batch.sourceKind}${batch.sourceLabel ? ` ${batch.sourceLabel}` : ''}` : '', item.envelope ?? ''].filter(Boolean).join(', ');
-        const meta: EmbeddedMetadata = { caption: item.caption ?? null, date, place: item.place ?? null, people: people.get(item.id) ?? [], source: source || null, backText: item.backText ?? null, scannedAt: scanDateOf(original) };
+        return { caption: item.caption ?? null, date: dateOf(item.dateEdtf), place: item.place ?? null, people: people.get(item.id) ?? [], source: source || null, backText: item.backText ?? null, scannedAt: scanDateOf(originals.get(item.originalId) ?? null) };
+      };
+      const encode = (id: string | undefined): Promise<Buffer | null> => {
+        const it = id ? byId.get(id) : undefined;
+        if (!it?.renderKey) return Promise.resolve(null);
+        const p = store.localPath(it.renderKey).then((file) => embeddedJpeg(file, metaOf(it)));
+        // Awaited in turn below; marked handled now so a failure while the zip is busy cannot crash the worker.
+        p.catch(() => undefined);
+        return p;
+      };
+      // The next print's JPEG is encoded while this one goes into the zip, so both cores work (STACK.md).
+      let upcoming = encode(ids[0]);
+      for (let k = 0; k < ids.length; k++) {
+        const item = byId.get(ids[k]);
+        const jpeg = await upcoming;
+        upcoming = encode(ids[k + 1]);
+        done++;
+        if (!item || !item.renderKey || !jpeg) continue;
+        const batch = batches.get(item.batchId);
+        const original = originals.get(item.originalId) ?? null;
+        const printOriginal = item.printOriginalId ? (originals.get(item.printOriginalId) ?? null) : null;
+        const date = dateOf(item.dateEdtf);
         const folder = folderFor(date);
         const nameBase = baseName(pattern, { date, caption: item.caption ?? null, seq: done, batch: batch?.name ?? null, originalName: item.originalName });
         const photoPath = names.claim(`photos/${folder}`, nameBase, '.jpg');
-        const jpeg = await embeddedJpeg(await store.localPath(item.renderKey), meta);
         await bag.addPayload(photoPath, jpeg, { store: true });
         let originalPath = '';
         let printPath = '';
