@@ -15,11 +15,12 @@ import {
   enqueueAnalyse,
   enqueueBatchSettled,
   PREVIEW_SIDE,
-  THUMBNAIL_SIDE,
   type AnalyseJob,
 } from '../src/lib/server/processing.ts';
 import { queue } from '../src/lib/server/queue.ts';
 import { storage } from '../src/lib/server/storage.ts';
+import { config } from '../src/lib/server/config.ts';
+import { eachAtMost, Slots, thumbnailFromPreview } from './derived.ts';
 import type { JobHandler } from './registry.ts';
 
 /** Marks an item failed with a reason fit to show the archivist. */
@@ -41,11 +42,10 @@ async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<voi
   if (claimed === 0) return;
 
   const store = storage();
+  const started = performance.now();
   try {
-    const result = await analyseAndRender(await store.localPath(item.original.storageKey), {
-      previews: { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE },
-      limits: uploadLimits(),
-    });
+    const path = await store.localPath(item.original.storageKey);
+    const result = await engineSlots.run(() => analyseAndRender(path, { previews: { preview: PREVIEW_SIDE }, limits: uploadLimits() }));
     // The next free version: 1 for a new print, later for a print whose scan was replaced
     // (a rescan from the negative). A re-run before the commit below computes the same number
     // and overwrites the same files; after the commit the item is ready and the run stops above.
@@ -56,12 +56,15 @@ async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<voi
       thumbnail: derivedKeys.originalThumbnail(item.id),
     };
     await store.put(keys.render, result.buffer);
+    const engineDone = performance.now();
     const previews = result.previews!;
+    const [originalThumb, correctedThumb] = await Promise.all([thumbnailFromPreview(previews.original.preview!), thumbnailFromPreview(previews.corrected.preview!)]);
     await store.put(keys.preview, previews.original.preview!);
-    await store.put(keys.thumbnail, previews.original.thumbnail!);
+    await store.put(keys.thumbnail, originalThumb);
     await store.put(derivedKeys.renderPreview(item.id, version), previews.corrected.preview!);
-    await store.put(derivedKeys.renderThumbnail(item.id, version), previews.corrected.thumbnail!);
+    await store.put(derivedKeys.renderThumbnail(item.id, version), correctedThumb);
 
+    const filesDone = performance.now();
     await db().transaction(async (transaction) => {
       const current = await Item.findByPk(item.id, { transaction, lock: transaction.LOCK.UPDATE });
       if (!current || current.state !== 'analysing' || current.originalId !== item.originalId) return;
@@ -85,6 +88,8 @@ async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<voi
       if ((err as Error)?.name === 'SequelizeUniqueConstraintError') return;
       throw err;
     });
+    const ms = (a: number, b: number) => Math.round(b - a);
+    console.log(`analyse ${item.id}: ${ms(started, performance.now())} ms (engine ${ms(started, engineDone)}, files ${ms(engineDone, filesDone)}, database ${ms(filesDone, performance.now())})`);
   } catch (err) {
     if (err instanceof ScanRejected) {
       // A damaged or cut-short scan stays damaged: no retry, the reason goes to the archivist.
@@ -139,12 +144,35 @@ setInterval(() => {
     });
 }, SWEEP_SECONDS * 1000).unref();
 
+/**
+ * Two images at a time on two cores (WORKER_CONCURRENCY): only the decode-analyse-render step
+ * holds one of these slots, so one scan's files and database rows are written while the next
+ * scan is already decoding.
+ */
+const AT_ONCE = config().workerConcurrency;
+const engineSlots = new Slots(AT_ONCE);
+
+/**
+ * One polling loop per worker fetches a few jobs at a time: pg-boss waits out the rest of its
+ * polling interval after every handler call, which with one sub-second scan per call leaves the
+ * cores idle much of the time.
+ */
+const FETCH = 3 * AT_ONCE;
+
 export const analyseHandler: JobHandler = {
   queue: ANALYSE_QUEUE.name,
-  concurrency: (c) => c.workerConcurrency,
-  workOptions: { includeMetadata: true },
-  // includeMetadata above makes pg-boss hand over retryCount and retryLimit with each job.
+  concurrency: () => 1,
+  // includeMetadata makes pg-boss hand over retryCount and retryLimit with each job.
+  workOptions: { includeMetadata: true, batchSize: FETCH },
   handle: (async (jobs: PgBoss.JobWithMetadata<AnalyseJob>[]) => {
-    for (const job of jobs) await analyseItem(job);
+    const boss = await queue();
+    await eachAtMost(jobs, FETCH, async (job) => {
+      try {
+        await analyseItem(job);
+      } catch (err) {
+        // Fail this job alone (pg-boss retries it with backoff); the others of the fetch complete.
+        await boss.fail(ANALYSE_QUEUE.name, job.id, { message: String((err as Error)?.message ?? err) });
+      }
+    });
   }) as PgBoss.WorkHandler<any>,
 };

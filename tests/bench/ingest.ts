@@ -1,0 +1,178 @@
+/**
+ * Ingest benchmark (`npm run bench:ingest`, run inside tests/bench/with-stack.sh): prints figures,
+ * asserts nothing.
+ * 100 generated 3600x2400 scans (6x4 in at 600 dpi; invented scenes, each aged differently so every
+ * file has other bytes) are uploaded through the API, four at a time, and timed until every item
+ * is ready (analysis, proposed correction, full-resolution corrected JPEG and previews). The floor,
+ * measured in the same run: 100 x a bare sharp decode -> JPEG q92 encode of one of them, on one
+ * core, divided by the 2 cores. The web server's and the worker's resident memory is sampled from
+ * /proc throughout, at each quarter of the batch, to show it stays flat as the batch grows.
+ * Ends with `ingest_ratio`, `server_peak_rss_mb` and `worker_peak_rss_mb`.
+ */
+import { createReadStream, mkdtempSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { Readable } from 'node:stream';
+import sharp from 'sharp';
+import { closeDb } from '../../db/index.ts';
+import { AGEING_MODELS, agePixels, encodeScene, generateScene, type Ageing } from '../../src/lib/demo/synthetic.ts';
+import { analyseAndRender } from '../../src/lib/restoration/imaging.ts';
+import { makeArchive } from '../support/fixtures.ts';
+
+const COUNT = Number(process.env.BENCH_COUNT ?? 100);
+const WIDTH = 3600;
+const HEIGHT = 2400;
+const CORES = 2;
+const UPLOADS_AT_ONCE = 4;
+const FLOOR_SAMPLES = 12;
+const BASE = process.env.APP_URL!;
+const serverPid = Number(process.env.DRAWERLIGHT_SERVER_PID);
+const workerPid = Number(process.env.DRAWERLIGHT_WORKER_PID);
+
+sharp.cache(false);
+
+function memory(pid: number): { rss: number; hwm: number } {
+  const text = readFileSync(`/proc/${pid}/status`, 'utf8');
+  const kb = (name: string) => Number(new RegExp(`^${name}:\\s+(\\d+) kB`, 'm').exec(text)?.[1] ?? 0);
+  return { rss: kb('VmRSS') / 1024, hwm: kb('VmHWM') / 1024 };
+}
+
+async function generate(dir: string): Promise<string[]> {
+  const t0 = performance.now();
+  const scenes = [
+    generateScene({ width: WIDTH, height: HEIGHT, border: true, seed: 1 }),
+    generateScene({ width: WIDTH, height: HEIGHT, border: false, seed: 2 }),
+    generateScene({ width: WIDTH, height: HEIGHT, border: true, monochrome: true, seed: 3 }),
+    generateScene({ width: WIDTH, height: HEIGHT, border: true, seed: 4 }),
+  ];
+  const files: string[] = [];
+  for (let i = 0; i < COUNT; i++) {
+    const severity = 0.2 + (0.8 * i) / Math.max(1, COUNT - 1);
+    const scene = i % scenes.length;
+    const ageing: Ageing = scene === 2 ? AGEING_MODELS.yellowedMonochrome(severity) : i % 3 === 0 ? AGEING_MODELS.lightFaded(severity) : AGEING_MODELS.darkStorage(severity);
+    const p = join(dir, `scan-${String(i + 1).padStart(3, '0')}.jpg`);
+    writeFileSync(p, await encodeScene(agePixels(scenes[scene], ageing), { format: 'jpeg', quality: 92 }));
+    files.push(p);
+  }
+  const mb = files.reduce((n, f) => n + statSync(f).size, 0) / 1048576;
+  console.log(`generated ${files.length} scans of ${WIDTH}x${HEIGHT} (${mb.toFixed(0)} MB) in ${((performance.now() - t0) / 1000).toFixed(1)} s (not counted)`);
+  return files;
+}
+
+/** One core's bare decode -> encode of one scan, in ms (mean of FLOOR_SAMPLES after a warm-up). */
+async function bareMs(file: string): Promise<number> {
+  sharp.concurrency(1);
+  const bytes = readFileSync(file);
+  await sharp(bytes).jpeg({ quality: 92 }).toBuffer();
+  const t0 = performance.now();
+  for (let i = 0; i < FLOOR_SAMPLES; i++) await sharp(bytes).jpeg({ quality: 92 }).toBuffer();
+  return (performance.now() - t0) / FLOOR_SAMPLES;
+}
+
+/**
+ * The engine alone, as the worker calls it (one decode: analysis, render, 1600 px previews), two
+ * scans at a time, in ms per scan: where the pipeline's time goes, apart from upload, storage and queue.
+ */
+async function engineMs(files: string[]): Promise<number> {
+  sharp.concurrency(0);
+  const bytes = files.slice(0, FLOOR_SAMPLES).map((f) => readFileSync(f));
+  await analyseAndRender(bytes[0], { previews: { preview: 1600 } });
+  const t0 = performance.now();
+  for (let i = 0; i + 1 < bytes.length; i += 2) await Promise.all([analyseAndRender(bytes[i], { previews: { preview: 1600 } }), analyseAndRender(bytes[i + 1], { previews: { preview: 1600 } })]);
+  return (performance.now() - t0) / (bytes.length - (bytes.length % 2));
+}
+
+async function api(token: string, method: string, path: string, body?: unknown) {
+  const res = await fetch(BASE + path, {
+    method,
+    headers: { authorization: `Bearer ${token}`, accept: 'application/json', ...(body ? { 'content-type': 'application/json' } : {}) },
+    body: body ? JSON.stringify(body) : undefined,
+  });
+  return { status: res.status, body: (await res.json()) as any };
+}
+
+async function uploadFile(token: string, batchId: string, file: string): Promise<number> {
+  const res = await fetch(`${BASE}/api/batches/${batchId}/files`, {
+    method: 'POST',
+    headers: { authorization: `Bearer ${token}`, 'content-type': 'application/octet-stream', 'content-length': String(statSync(file).size), 'x-file-name': encodeURIComponent(file.split('/').pop()!) },
+    body: Readable.toWeb(createReadStream(file)) as unknown as BodyInit,
+    duplex: 'half',
+  } as RequestInit);
+  await res.arrayBuffer();
+  return res.status;
+}
+
+const work = mkdtempSync(join(tmpdir(), 'drawerlight-bench-ingest-'));
+try {
+  const files = await generate(work);
+  const floorMs = await bareMs(files[0]);
+  const floorS = (COUNT * floorMs) / 1000 / CORES;
+  console.log(`bare sharp decode -> JPEG q92, one core: ${floorMs.toFixed(1)} ms/scan; floor for ${COUNT} on ${CORES} cores: ${floorS.toFixed(2)} s`);
+
+  const engine = await engineMs(files);
+  console.log(`engine alone (analyse + render + previews), two at a time: ${engine.toFixed(1)} ms/scan; engine_only_ratio: ${((engine * COUNT) / 1000 / floorS).toFixed(2)}`);
+
+  const archive = await makeArchive('bench-ingest');
+  const token = archive.editor.token;
+  const created = await api(token, 'POST', '/api/batches', { name: `Benchmark batch ${Date.now()}`, sourceKind: 'drawer', sourceLabel: 'Generated prints' });
+  if (created.status !== 201) throw new Error(`could not create the batch: ${JSON.stringify(created.body)}`);
+  const batchId = created.body.id as string;
+
+  const before = { server: memory(serverPid), worker: memory(workerPid) };
+  console.log(`before: server ${before.server.rss.toFixed(0)} MB, worker ${before.worker.rss.toFixed(0)} MB resident`);
+  const peak = { server: 0, worker: 0 };
+  const sampler = setInterval(() => {
+    peak.server = Math.max(peak.server, memory(serverPid).rss);
+    peak.worker = Math.max(peak.worker, memory(workerPid).rss);
+  }, 100);
+
+  const t0 = performance.now();
+  let next = 0;
+  let uploadedAt = 0;
+  const statuses: number[] = [];
+  const uploads = Promise.all(
+    Array.from({ length: UPLOADS_AT_ONCE }, async () => {
+      while (next < files.length) {
+        const f = files[next++];
+        statuses.push(await uploadFile(token, batchId, f));
+      }
+    }),
+  ).then(() => {
+    uploadedAt = performance.now();
+  });
+
+  const quarters = new Set<number>();
+  let counts: any = {};
+  for (;;) {
+    const s = await api(token, 'GET', `/api/batches/${batchId}`);
+    counts = s.body.counts;
+    const done = (counts.ready ?? 0) + (counts.failed ?? 0);
+    for (const q of [1, 2, 3, 4]) {
+      if (!quarters.has(q) && done >= (COUNT * q) / 4) {
+        quarters.add(q);
+        const m = { server: memory(serverPid), worker: memory(workerPid) };
+        console.log(`${String(done).padStart(3)} of ${COUNT} done at ${((performance.now() - t0) / 1000).toFixed(1).padStart(5)} s: server ${m.server.rss.toFixed(0)} MB, worker ${m.worker.rss.toFixed(0)} MB resident`);
+      }
+    }
+    if (done >= COUNT && s.body.settled) break;
+    if (performance.now() - t0 > 30 * 60 * 1000) throw new Error(`gave up after 30 minutes: ${JSON.stringify(counts)}`);
+    await new Promise((r) => setTimeout(r, 100));
+  }
+  const totalS = (performance.now() - t0) / 1000;
+  await uploads;
+  clearInterval(sampler);
+  const after = { server: memory(serverPid), worker: memory(workerPid) };
+  peak.server = Math.max(peak.server, after.server.hwm);
+  peak.worker = Math.max(peak.worker, after.worker.hwm);
+
+  const refused = statuses.filter((s) => s !== 201).length;
+  console.log(`uploads: ${statuses.length} answered, ${refused} not 201; all uploaded after ${((uploadedAt - t0) / 1000).toFixed(1)} s`);
+  console.log(`items: ${counts.ready} ready, ${counts.failed} failed`);
+  console.log(`ingest of ${COUNT} scans until all ready: ${totalS.toFixed(2)} s (${((totalS * 1000) / COUNT).toFixed(0)} ms/scan)`);
+  console.log(`ingest_ratio: ${(totalS / floorS).toFixed(2)}`);
+  console.log(`server_peak_rss_mb: ${peak.server.toFixed(0)}`);
+  console.log(`worker_peak_rss_mb: ${peak.worker.toFixed(0)}`);
+} finally {
+  rmSync(work, { recursive: true, force: true });
+  await closeDb();
+}
