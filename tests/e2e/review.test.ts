@@ -120,6 +120,15 @@ describe('reviewing a batch in the browser', () => {
     await page.waitForSelector('[data-dirty="no"]');
   });
 
+  it('switches to side by side with V and back', async () => {
+    await page.keyboard.press('v');
+    await page.waitForSelector('[data-compare-view][data-layout="side"]');
+    expect(await drawnSplitX(page)).toEqual([]);
+    await snap(page, 'review-04b-side-by-side');
+    await page.keyboard.press('v');
+    await page.waitForSelector('[data-compare-view][data-layout="split"]');
+  });
+
   it('lists the keys in the help overlay', async () => {
     await page.keyboard.press('?');
     await page.waitForSelector('[data-help-overlay]');
