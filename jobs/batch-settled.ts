@@ -4,6 +4,7 @@
  *    of their siblings from the same box or drawer; where that changes the proposal, a 'pooled'
  *    correction version is added and rendered.
  * 2. Whoever created the batch gets one e-mail with the counts and a link (finished_notified_at).
+ * Both wait until no scan has been added for BATCH_QUIET_SECONDS (the job puts itself off until then).
  * The batch row is locked throughout, so however many of these jobs arrive, the work is done once.
  */
 import type PgBoss from 'pg-boss';
@@ -13,7 +14,7 @@ import { poolAnalyses, type Analysis } from '../src/lib/restoration/analysis.ts'
 import { stateCounts } from '../src/lib/server/batches.ts';
 import { config } from '../src/lib/server/config.ts';
 import { linkMail, sendMail } from '../src/lib/server/mailer.ts';
-import { BATCH_SETTLED_QUEUE, enqueueRender, type BatchSettledJob } from '../src/lib/server/processing.ts';
+import { BATCH_QUIET_SECONDS, BATCH_SETTLED_QUEUE, enqueueBatchSettled, enqueueRender, type BatchSettledJob } from '../src/lib/server/processing.ts';
 import type { JobHandler } from './registry.ts';
 
 /** The print's own measurement: the analysis as stored, without an earlier pooling note. */
@@ -27,11 +28,18 @@ const same = (a: unknown, b: unknown) => JSON.stringify(a) === JSON.stringify(b)
 async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
   const renders: { itemId: string; version: number; pixels: number }[] = [];
   let mail: ReturnType<typeof linkMail> | null = null;
+  let putOff = 0;
   await db().transaction(async (transaction) => {
     const batch = await Batch.findByPk(job.data.batchId, { transaction, lock: transaction.LOCK.UPDATE });
     if (!batch) return;
     const counts = (await stateCounts([batch.id])).get(batch.id)!;
     if (counts.total === 0 || counts.queued > 0 || counts.analysing > 0) return;
+    const newest = await Item.max<Date, Item>('createdAt', { where: { batchId: batch.id }, transaction });
+    const quietFor = newest ? (Date.now() - new Date(newest).getTime()) / 1000 : Infinity;
+    if (quietFor < BATCH_QUIET_SECONDS) {
+      putOff = BATCH_QUIET_SECONDS - quietFor;
+      return;
+    }
 
     const items = (await Item.findAll({ where: { batchId: batch.id, state: 'ready', analysis: { [Op.ne]: null } }, include: [{ model: Original, as: 'original' }], order: [['seq', 'ASC']], transaction })) as (Item & { original: Original })[];
     const own = items.map((i) => ownAnalysis(i.analysis!));
@@ -77,6 +85,7 @@ async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
       await batch.update({ finishedNotifiedAt: new Date() }, { transaction });
     }
   });
+  if (putOff > 0) await enqueueBatchSettled(job.data.batchId, putOff);
   for (const r of renders) await enqueueRender(r.itemId, r.version, r.pixels);
 }
 

@@ -50,6 +50,13 @@ describe('the upload page', () => {
     await page.locator('[data-earlier-list]').waitFor();
     await expect(page.locator('[data-earlier-list] [data-state="ready"]').count()).resolves.toBe(5);
     await snap(page, 'upload-revisited');
+
+    // The batch list shows the batch with its counts per state.
+    await page.goto(`${BASE}/batches`);
+    const card = page.locator('[data-batch="Envelope from the sideboard"]');
+    await card.locator('[data-batch-progress][data-settled="true"]').waitFor();
+    await expect(card.locator('[data-count="ready"] [data-value]').textContent()).resolves.toBe('5');
+    await snap(page, 'batch-list');
     await page.close();
   }, 180_000);
 });

@@ -78,10 +78,17 @@ export async function enqueueRender(itemId: string, version: number, pixels?: nu
  * Queues the settling of a batch. Several workers finishing the last analyses at once may each
  * ask; the handler locks the batch row, so the work is done once however many jobs arrive.
  */
-export async function enqueueBatchSettled(batchId: string): Promise<void> {
+export async function enqueueBatchSettled(batchId: string, afterSeconds = 0): Promise<void> {
   const b = await boss(BATCH_SETTLED_QUEUE);
-  await b.send(BATCH_SETTLED_QUEUE.name, { batchId } satisfies BatchSettledJob);
+  await b.send(BATCH_SETTLED_QUEUE.name, { batchId } satisfies BatchSettledJob, afterSeconds > 0 ? { startAfter: Math.ceil(afterSeconds) } : {});
 }
+
+/**
+ * A batch counts as finished once nothing in it waits for analysis and no scan has been added
+ * for this long: a worker faster than the scanner (or than a slow upload) empties the queue
+ * between two files, and the archivist should hear once, about the whole sitting.
+ */
+export const BATCH_QUIET_SECONDS = 20;
 
 /** Storage keys of an item's derived files: deterministic, so a retried job overwrites instead of adding. */
 export const derivedKeys = {

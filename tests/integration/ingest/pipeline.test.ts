@@ -61,16 +61,34 @@ describe('batch ingest through the API', () => {
     const proposed = await Correction.count({ where: { itemId: dbItems.map((i) => i.id), origin: 'proposed' } });
     expect(proposed).toBe(40);
 
-    // The creator hears about it once (the mail fake's outbox).
+    // The creator hears about it once (the mail fake's outbox), after the batch has been quiet for BATCH_QUIET_SECONDS.
     let mails: Awaited<ReturnType<typeof listOutbox>> = [];
-    for (let i = 0; i < 40 && mails.length === 0; i++) {
+    for (let i = 0; i < 120 && mails.length === 0; i++) {
       mails = (await listOutbox()).filter((m) => m.to.includes(a.editor.email) && m.subject.includes('Forty generated prints'));
       if (mails.length === 0) await new Promise((r) => setTimeout(r, 500));
     }
     expect(mails).toHaveLength(1);
     expect(mails[0].text).toContain('40 ready for review');
     expect(mails[0].text).toContain(`/batches/${batchId}`);
+    await new Promise((r) => setTimeout(r, 3000));
+    expect((await listOutbox()).filter((m) => m.to.includes(a.editor.email) && m.subject.includes('Forty generated prints'))).toHaveLength(1);
   }, 300_000);
+
+  it('mails once, about the whole sitting, when a slow upload lets the worker catch up in between', async () => {
+    const owner = asToken(a.owner);
+    const batchId = await createBatch(owner, 'Slow sitting');
+    const [first, second] = await generatedScans(2, 800);
+    expect((await upload(owner, batchId, 'first.jpg', first.bytes)).status).toBe(201);
+    await waitSettled(owner, batchId);
+    await new Promise((r) => setTimeout(r, 4000));
+    expect((await upload(owner, batchId, 'second.jpg', second.bytes)).status).toBe(201);
+    await waitSettled(owner, batchId);
+    const mine = async () => (await listOutbox()).filter((m) => m.to.includes(a.owner.email) && m.subject.includes('Slow sitting'));
+    for (let i = 0; i < 120 && (await mine()).length === 0; i++) await new Promise((r) => setTimeout(r, 500));
+    const mails = await mine();
+    expect(mails).toHaveLength(1);
+    expect(mails[0].text).toContain('All 2 scans');
+  }, 120_000);
 
   it('stores the same file once: a second upload is linked to the first item and reported', async () => {
     const editor = asToken(a.editor);
