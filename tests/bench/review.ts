@@ -167,6 +167,13 @@ async function main() {
       return times;
     });
 
+    // full size: one scan pixel per screen pixel loads the visible region of the 3072 px scan at full resolution
+    const t1 = Date.now();
+    await page.keyboard.press('1');
+    await page.waitForSelector('[data-compare-view][data-hires="yes"]', { timeout: 30_000 });
+    const fullSizeMs = Date.now() - t1;
+
+    console.log(`full_size_region_ms: ${fullSizeMs} (key 1 to the full-resolution region on screen, incl. the ${250} ms settle delay)`);
     console.log(`idle_frame_p95_ms: ${fmt(p(idle, 0.95))} (floor: the page's own frame interval, ${idle.length} frames)`);
     console.log(`split drag: ${dragFrames.length} frames, median ${fmt(p(dragFrames, 0.5))} ms, p95 ${fmt(p(dragFrames, 0.95))} ms, max ${fmt(Math.max(...dragFrames))} ms`);
     console.log(`split_draw_p95_ms: ${fmt(p(drag.draws, 0.95))} (Konva draw time per layer redraw, ${drag.draws.length} draws)`);

@@ -76,7 +76,8 @@ export async function itemDetail(item: Item): Promise<ItemDetail> {
   ]);
   const analysis = (item.analysis as Analysis | null) ?? null;
   const current = corrections.find((c) => c.version === item.currentVersion)?.params ?? corrections.at(-1)?.params ?? null;
-  const proposed = corrections.find((c) => c.origin === 'proposed' || c.origin === 'pooled')?.params ?? parseParams(analysis?.proposed) ?? null;
+  // the newest of Drawerlight's own proposals: a batch-pooled one replaces the print's first
+  const proposed = corrections.findLast((c) => c.origin === 'proposed' || c.origin === 'pooled')?.params ?? parseParams(analysis?.proposed) ?? null;
   return {
     id: item.id,
     archiveId: item.archiveId,
