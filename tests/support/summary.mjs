@@ -8,7 +8,8 @@ if (!fs.existsSync(file)) {
   process.exit(1);
 }
 const r = JSON.parse(fs.readFileSync(file, 'utf8'));
-const failedSuites = (r.testResults ?? []).filter((s) => s.status === 'failed' && (s.assertionResults ?? []).length === 0).length;
+// A file that failed outside its tests (import error, failing beforeAll) counts as one failure.
+const failedSuites = (r.testResults ?? []).filter((s) => s.status === 'failed' && !(s.assertionResults ?? []).some((t) => t.status === 'failed')).length;
 const passed = r.numPassedTests ?? 0;
 const failed = (r.numFailedTests ?? 0) + failedSuites;
 const skipped = (r.numPendingTests ?? 0) + (r.numTodoTests ?? 0);

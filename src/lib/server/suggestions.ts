@@ -79,6 +79,14 @@ export async function pendingForBatch(batchId: string): Promise<Record<string, S
   return out;
 }
 
+/** Checks the caller may decide suggestion `id` (editors of its archive; another archive's are 404). */
+export async function authorizeSuggestionDecision(locals: App.Locals, id: string): Promise<void> {
+  requireUser(locals);
+  const sug = await Suggestion.findByPk(id, { attributes: ['id', 'archiveId'] });
+  if (!sug || !locals.memberships.some((m) => m.archiveId === sug.archiveId)) throw new NotFound('That suggestion');
+  requireArchiveRole(locals, sug.archiveId, 'editor', 'That suggestion');
+}
+
 /** Accepts (applying the suggested fields to the print) or declines a pending suggestion (editors). */
 export async function decideSuggestion(locals: App.Locals, suggestionId: string, decision: 'accept' | 'decline'): Promise<SuggestionView> {
   requireUser(locals);

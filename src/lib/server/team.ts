@@ -135,6 +135,11 @@ async function ownerCount(archiveId: string, transaction: import('sequelize').Tr
   return Membership.count({ where: { archiveId, role: 'owner' }, transaction });
 }
 
+/** Throws 404 unless `membershipId` is a member of `archiveId` (checked before reading a request body). */
+export async function requireMember(archiveId: string, membershipId: string): Promise<void> {
+  if (!(await Membership.count({ where: { id: membershipId, archiveId } }))) throw new NotFound('That member');
+}
+
 /** Changes a member's role; the last owner cannot be demoted. */
 export async function changeRole(archiveId: string, membershipId: string, role: Role, actor: Actor) {
   return db().transaction(async (transaction) => {

@@ -1,6 +1,7 @@
 import { idParam } from '../../../../lib/server/access.ts';
 import { AppError } from '../../../../lib/server/errors.ts';
 import { apiRoute, json, parseInput, readJson } from '../../../../lib/server/http.ts';
+import { batchForCaller } from '../../../../lib/server/batches.ts';
 import { bulkDecide } from '../../../../lib/server/review.ts';
 import { bulkDecisionInput } from '../../../../lib/review/schemas.ts';
 
@@ -11,6 +12,7 @@ import { bulkDecisionInput } from '../../../../lib/review/schemas.ts';
  */
 export const POST = apiRoute(async ({ locals, params, request }) => {
   const batchId = idParam(params.id, 'That batch');
+  await batchForCaller(locals, batchId, 'editor');
   const input = parseInput(bulkDecisionInput, await readJson(request));
   const result = await bulkDecide(locals, batchId, input);
   if (result.decided.length === 0) {

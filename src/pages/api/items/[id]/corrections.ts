@@ -12,6 +12,7 @@ export const GET = apiRoute(async ({ locals, params }) => {
 /** Saves an operator correction as a new version and queues its render: 202. */
 export const POST = apiRoute(async ({ locals, params, request }) => {
   const id = idParam(params.id, 'That print');
+  await itemForRole(locals, id, 'editor');
   const input = parseInput(correctionInput, await readJson(request));
   const { detail, version } = await saveCorrection(locals, id, input);
   return json({ version, item: detail }, 202);

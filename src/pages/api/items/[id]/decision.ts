@@ -1,11 +1,12 @@
 import type { APIContext } from 'astro';
 import { idParam } from '../../../../lib/server/access.ts';
 import { apiRoute, json, parseInput, readJson } from '../../../../lib/server/http.ts';
-import { decide } from '../../../../lib/server/review.ts';
+import { decide, itemForRole } from '../../../../lib/server/review.ts';
 import { decisionInput } from '../../../../lib/review/schemas.ts';
 
 async function record({ locals, params, request }: APIContext) {
   const id = idParam(params.id, 'That print');
+  await itemForRole(locals, id, 'editor');
   const input = parseInput(decisionInput, await readJson(request));
   const { detail, queuedVersion } = await decide(locals, id, input);
   return json({ item: detail, queuedRender: queuedVersion }, queuedVersion ? 202 : 200);
