@@ -13,7 +13,11 @@ export interface Reply<T = any> {
 
 export class Client {
   private jar = new Map<string, string>();
-  constructor(readonly token?: string) {}
+  /** `base` is the server to talk to: the test run's by default, or another stack's (tests/support/isolated-stack.ts). */
+  constructor(
+    readonly token?: string,
+    readonly base: string = BASE,
+  ) {}
 
   cookieHeader(): string {
     return [...this.jar].map(([k, v]) => `${k}=${v}`).join('; ');
@@ -33,7 +37,7 @@ export class Client {
 
   /** Sends a request; `json` becomes the body. Same-origin requests carry our Origin, as a browser's would. */
   async request<T = any>(method: string, path: string, opts: { json?: unknown; body?: BodyInit; headers?: Record<string, string>; redirect?: RequestRedirect } = {}): Promise<Reply<T>> {
-    const headers: Record<string, string> = { accept: 'application/json', origin: BASE, ...(opts.headers ?? {}) };
+    const headers: Record<string, string> = { accept: 'application/json', origin: this.base, ...(opts.headers ?? {}) };
     if (this.token) headers.authorization = `Bearer ${this.token}`;
     if (this.jar.size) headers.cookie = this.cookieHeader();
     let body = opts.body;
@@ -41,7 +45,7 @@ export class Client {
       headers['content-type'] = 'application/json';
       body = JSON.stringify(opts.json);
     }
-    const res = await fetch(BASE + path, { method, headers, body, redirect: opts.redirect ?? 'manual', duplex: 'half' } as RequestInit);
+    const res = await fetch(this.base + path, { method, headers, body, redirect: opts.redirect ?? 'manual', duplex: 'half' } as RequestInit);
     this.keep(res);
     const text = await res.text();
     let parsed: any = text;
@@ -70,15 +74,15 @@ export class Client {
   async signIn(email: string, password: string): Promise<Reply> {
     const csrf = await this.get<{ csrfToken: string }>('/api/auth/csrf');
     return this.request('POST', '/api/auth/callback/credentials', {
-      body: new URLSearchParams({ email, password, csrfToken: csrf.body.csrfToken, callbackUrl: `${BASE}/` }),
+      body: new URLSearchParams({ email, password, csrfToken: csrf.body.csrfToken, callbackUrl: `${this.base}/` }),
       headers: { 'content-type': 'application/x-www-form-urlencoded', accept: 'text/html' },
     });
   }
 }
 
 /** A client signed in as `email`; throws when the sign-in did not produce a session. */
-export async function signedIn(email: string, password: string): Promise<Client> {
-  const c = new Client();
+export async function signedIn(email: string, password: string, base: string = BASE): Promise<Client> {
+  const c = new Client(undefined, base);
   await c.signIn(email, password);
   const me = await c.get('/api/me');
   if (me.status !== 200) throw new Error(`sign-in as ${email} failed: /api/me answered ${me.status}`);
