@@ -149,14 +149,38 @@ export class CorrectionInputError extends Error {
 /** Whether 32-bit words hold their bytes lowest first (every browser and server CPU in use does). */
 const LITTLE_ENDIAN = new Uint8Array(new Uint32Array([1]).buffer)[0] === 1;
 
+/** Below this many bytes the pair tables cost more to build than they save. */
+const PAIR_TABLES_FROM = 1 << 20;
+
+/** Tables from two neighbouring bytes to their two corrected bytes, per channel pair, per set of tables (tables are never changed once built). */
+const pairTables = new WeakMap<ChannelLuts, { rg: Uint16Array; br: Uint16Array; gb: Uint16Array }>();
+
+function pairTable(lo: Uint8Array, hi: Uint8Array): Uint16Array {
+  const t = new Uint16Array(65536);
+  for (let h = 0; h < 256; h++) {
+    const high = hi[h] << 8;
+    const base = h << 8;
+    for (let l = 0; l < 256; l++) t[base | l] = high | lo[l];
+  }
+  return t;
+}
+
 // One monomorphic loop per array type: V8 keeps each fast, where a shared loop over mixed
 // array types runs at about half speed.
-function map8(src: Uint8Array, dst: Uint8Array, r: Uint8Array, g: Uint8Array, b: Uint8Array): void {
+function map8(src: Uint8Array, dst: Uint8Array, luts: ChannelLuts, r: Uint8Array, g: Uint8Array, b: Uint8Array): void {
   const n = src.length;
   let i = 0;
-  if (LITTLE_ENDIAN && src.byteOffset % 4 === 0 && dst.byteOffset % 4 === 0 && n >= 12) {
-    // Four RGB pixels are three whole 32-bit words: one load and one store per four bytes
-    // instead of one each per byte, about a third less time on a full-resolution scan.
+  if (LITTLE_ENDIAN && n >= PAIR_TABLES_FROM && src.byteOffset % 4 === 0 && dst.byteOffset % 4 === 0) {
+    // Four RGB pixels are three 32-bit words, and each half-word is two neighbouring channels
+    // (red-green, blue-red, green-blue in turn): two lookups in a 65536-entry table per word
+    // instead of four byte lookups, with one load and one store per four bytes. About a third
+    // of the time of the byte loop on a full-resolution scan; the tables (384 KB) stay in cache.
+    let t = pairTables.get(luts);
+    if (!t) {
+      t = { rg: pairTable(r, g), br: pairTable(b, r), gb: pairTable(g, b) };
+      pairTables.set(luts, t);
+    }
+    const { rg, br, gb } = t;
     const words = Math.floor(n / 12) * 3;
     const s = new Uint32Array(src.buffer, src.byteOffset, words);
     const d = new Uint32Array(dst.buffer, dst.byteOffset, words);
@@ -164,9 +188,9 @@ function map8(src: Uint8Array, dst: Uint8Array, r: Uint8Array, g: Uint8Array, b:
       const a = s[w];
       const c = s[w + 1];
       const e = s[w + 2];
-      d[w] = r[a & 255] | (g[(a >>> 8) & 255] << 8) | (b[(a >>> 16) & 255] << 16) | (r[a >>> 24] << 24);
-      d[w + 1] = g[c & 255] | (b[(c >>> 8) & 255] << 8) | (r[(c >>> 16) & 255] << 16) | (g[c >>> 24] << 24);
-      d[w + 2] = b[e & 255] | (r[(e >>> 8) & 255] << 8) | (g[(e >>> 16) & 255] << 16) | (b[e >>> 24] << 24);
+      d[w] = rg[a & 0xffff] | (br[a >>> 16] << 16);
+      d[w + 1] = gb[c & 0xffff] | (rg[c >>> 16] << 16);
+      d[w + 2] = br[e & 0xffff] | (gb[e >>> 16] << 16);
     }
     i = words * 4;
   }
@@ -223,7 +247,7 @@ export function applyCorrection<T extends Uint8Array | Uint8ClampedArray | Uint1
   const dest = out ?? (luts.outDepth === 8 ? new Uint8Array(data.length) : new Uint16Array(data.length));
   if (dest.length < data.length) throw new CorrectionInputError('destination buffer is too small');
   if (channels === 3 && dest instanceof Uint8Array && luts.red instanceof Uint8Array && luts.green instanceof Uint8Array && luts.blue instanceof Uint8Array) {
-    if (data instanceof Uint8Array) map8(data, dest, luts.red, luts.green, luts.blue);
+    if (data instanceof Uint8Array) map8(data, dest, luts, luts.red, luts.green, luts.blue);
     else if (data instanceof Uint16Array) map16(data, dest, luts.red, luts.green, luts.blue);
     else mapAny(data, channels, luts, dest);
   } else {
