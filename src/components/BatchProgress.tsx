@@ -17,6 +17,32 @@ export default function BatchProgress({ batchId, initial, compact = false }: Pro
   const [live, setLive] = useState(false);
 
   useEffect(() => {
+    if (compact) {
+      // Lists show many batches at once: a browser allows only six open connections per host, so
+      // list entries ask now and then with short requests, and stop once their batch has settled.
+      if (initial && isSettled(initial)) return;
+      let stopped = false;
+      let timer: ReturnType<typeof setTimeout> | undefined;
+      const poll = async () => {
+        try {
+          const res = await fetch(`/api/batches/${batchId}`, { headers: { accept: 'application/json' } });
+          if (res.ok) {
+            const next = (await res.json()).counts as StateCounts;
+            setCounts(next);
+            setLive(true);
+            if (isSettled(next)) return;
+          }
+        } catch {
+          setLive(false);
+        }
+        if (!stopped) timer = setTimeout(poll, 3000);
+      };
+      timer = setTimeout(poll, 1000);
+      return () => {
+        stopped = true;
+        clearTimeout(timer);
+      };
+    }
     const source = new EventSource(`/api/batches/${batchId}/events`);
     source.addEventListener('counts', (e) => {
       setCounts(JSON.parse((e as MessageEvent).data).counts);
@@ -24,7 +50,7 @@ export default function BatchProgress({ batchId, initial, compact = false }: Pro
     });
     source.onerror = () => setLive(false);
     return () => source.close();
-  }, [batchId]);
+  }, [batchId, compact]);
 
   const done = counts.ready + counts.failed;
   const percent = counts.total ? Math.round((done / counts.total) * 100) : 0;

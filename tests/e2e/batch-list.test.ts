@@ -1,0 +1,39 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { BrowserContext } from 'playwright-core';
+import { closeDb } from '../../db/index.ts';
+import { launchBrowser, signInPage, snap } from '../support/browser.ts';
+import { asToken, makeArchive, TEST_PASSWORD, type TestArchive } from '../support/fixtures.ts';
+import { BASE } from '../support/http.ts';
+import { createBatch } from '../integration/ingest/helpers.ts';
+
+let a: TestArchive;
+let browser: BrowserContext;
+beforeAll(async () => {
+  a = await makeArchive('many-batches');
+  for (let i = 1; i <= 9; i++) await createBatch(asToken(a.editor), `Shoebox ${i}`);
+  browser = await launchBrowser();
+});
+afterAll(async () => {
+  await browser?.close();
+  await closeDb();
+});
+
+describe('the batch list', () => {
+  it('shows many batches without holding a connection open per batch, so the page stays usable', async () => {
+    const page = await browser.newPage();
+    const streams: string[] = [];
+    page.on('request', (r) => {
+      if (r.url().endsWith('/events')) streams.push(r.url());
+    });
+    await signInPage(page, a.owner.email, TEST_PASSWORD);
+    await page.goto(`${BASE}/batches`, { waitUntil: 'load', timeout: 15_000 });
+    await expect(page.locator('[data-batch]').count()).resolves.toBe(9);
+    await page.waitForTimeout(1500);
+    // A browser keeps at most six connections to one host: one event stream per batch would starve the page.
+    expect(streams).toEqual([]);
+    await page.getByRole('link', { name: 'Team' }).click();
+    await page.waitForURL(/\/team/, { timeout: 10_000 });
+    await snap(page, 'batch-list-many');
+    await page.close();
+  });
+});
