@@ -19,6 +19,7 @@ import {
 } from '../src/lib/server/processing.ts';
 import { queue } from '../src/lib/server/queue.ts';
 import { storage } from '../src/lib/server/storage.ts';
+import { removeStaleTemporaries } from '../src/lib/server/stale-files.ts';
 import { config } from '../src/lib/server/config.ts';
 import { eachAtMost, Slots, thumbnailFromPreview } from './derived.ts';
 import type { JobHandler } from './registry.ts';
@@ -113,6 +114,7 @@ const STRANDED_AFTER = "interval '2 minutes'";
 async function sweep(): Promise<void> {
   const boss = (await queue()) as PgBoss & { expire?: () => Promise<void> };
   await boss.expire?.();
+  await removeStaleTemporaries();
   const stranded = await db().query<{ id: string; pixels: number | null; batch_id: string; state: string }>(
     `SELECT i.id, i.batch_id, i.state, (o.width::bigint * o.height) AS pixels
        FROM items i JOIN originals o ON o.id = i.original_id

@@ -21,6 +21,7 @@ const envSchema = z.object({
   MAX_UPLOAD_MB: z.coerce.number().positive().default(300),
   MAX_MEGAPIXELS: z.coerce.number().positive().default(150),
   WORKER_CONCURRENCY: z.coerce.number().int().min(1).max(8).default(2),
+  STALE_UPLOAD_MINUTES: z.coerce.number().positive().default(30),
   SIGNIN_ATTEMPTS_PER_15_MIN: z.coerce.number().int().positive().default(10),
 });
 
@@ -62,6 +63,8 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env) {
       maxPixels: Math.round(e.MAX_MEGAPIXELS * 1_000_000),
     },
     workerConcurrency: e.WORKER_CONCURRENCY,
+    /** A staged or half-written file untouched this long belongs to a process that died (src/lib/server/stale-files.ts). */
+    staleUploadMs: Math.round(e.STALE_UPLOAD_MINUTES * 60_000),
     signinAttemptsPer15Min: e.SIGNIN_ATTEMPTS_PER_15_MIN,
   };
 }
