@@ -390,17 +390,51 @@ function narrowTo8(p: ReducedPixels): ReducedPixels {
   return { ...p, data: narrow, depth: 8 };
 }
 
-async function previewSet(pixels: ReducedPixels, sizes: RenderOptions['previews']): Promise<PreviewSet> {
+/**
+ * Encodes an 8-bit raw copy as a small JPEG, reduced further to `side` when it is larger.
+ * Standard Huffman tables: optimised ones take about twice the encode time for a few percent.
+ */
+function smallJpeg(p: ReducedPixels, side: number): Promise<Buffer> {
+  return rawImage(p).resize({ width: side, height: side, fit: 'inside', withoutEnlargement: true }).toColourspace('srgb').jpeg({ quality: 82, optimiseCoding: false }).toBuffer();
+}
+
+/** Long side of the largest small copy asked for, or 0 for none. */
+function smallSide(sizes: RenderOptions['previews']): number {
+  return Math.max(sizes?.preview ?? 0, sizes?.thumbnail ?? 0);
+}
+
+/**
+ * One libvips reduction of the decoded pixels to the largest small copy asked for, at the same
+ * depth: every preview and thumbnail, original and corrected, is made from it, never from the
+ * full-resolution pixels again. Always a buffer of its own, so the full pixels can then be
+ * corrected in place.
+ */
+async function reduceForPreviews(src: ReducedPixels, side: number): Promise<ReducedPixels> {
+  if (Math.max(src.width, src.height) <= side) return { ...src, data: src.data.slice() };
+  const sixteen = src.depth === 16;
+  const { data, info } = await rawImage(src)
+    .resize({ width: side, height: side, fit: 'inside' })
+    .raw({ depth: sixteen ? 'ushort' : 'uchar' })
+    .toBuffer({ resolveWithObject: true });
+  const view = sixteen ? new Uint16Array(data.buffer.slice(data.byteOffset, data.byteOffset + data.length)) : new Uint8Array(data.buffer, data.byteOffset, data.length);
+  return { data: view, width: info.width, height: info.height, channels: info.channels, depth: src.depth };
+}
+
+async function previewSet(small: ReducedPixels, sizes: RenderOptions['previews']): Promise<PreviewSet> {
+  const p = narrowTo8(small);
+  const [preview, thumbnail] = await Promise.all([sizes?.preview ? smallJpeg(p, sizes.preview) : undefined, sizes?.thumbnail ? smallJpeg(p, sizes.thumbnail) : undefined]);
   const out: PreviewSet = {};
-  const p = narrowTo8(pixels);
-  const make = (side: number) =>
-    rawImage(p).resize({ width: side, height: side, fit: 'inside', withoutEnlargement: true }).toColourspace('srgb').jpeg({ quality: 82 }).toBuffer();
-  if (sizes?.preview) out.preview = await make(sizes.preview);
-  if (sizes?.thumbnail) out.thumbnail = await make(sizes.thumbnail);
+  if (preview) out.preview = preview;
+  if (thumbnail) out.thumbnail = thumbnail;
   return out;
 }
 
-async function renderFromFull(full: FullPixels, correction: Correction, options: RenderOptions): Promise<RenderResult> {
+/**
+ * Renders from decoded pixels. `small`, when previews are asked for, is the reduction made by
+ * {@link reduceForPreviews} (the caller may start it early, so that libvips makes it while the
+ * analysis runs); it is made here otherwise.
+ */
+async function renderFromFull(full: FullPixels, correction: Correction, options: RenderOptions, small?: Promise<ReducedPixels>): Promise<RenderResult> {
   const c = correctionSchema.parse(correction);
   let src: ReducedPixels = full;
   if (options.maxSide && Math.max(full.width, full.height) > options.maxSide) {
@@ -409,24 +443,35 @@ async function renderFromFull(full: FullPixels, correction: Correction, options:
       .raw({ depth: full.depth === 16 ? 'ushort' : 'uchar' })
       .toBuffer({ resolveWithObject: true });
     src = { data: full.depth === 16 ? new Uint16Array(data.buffer.slice(data.byteOffset, data.byteOffset + data.length)) : new Uint8Array(data.buffer, data.byteOffset, data.length), width: info.width, height: info.height, channels: info.channels, depth: full.depth };
+    small = undefined;
   }
+  const side = smallSide(options.previews);
+  // the small copy of the original must be taken before the full pixels are corrected in place
+  const reduced = side > 0 ? await (small ?? reduceForPreviews(src, side)) : undefined;
   // an unfaded print on 8-bit pixels needs no per-pixel pass at all
   const untouched = isIdentity(c) && src.depth === 8;
-  // 8-bit pixels are corrected in place unless the originals are still wanted for previews
-  const inPlace = src.depth === 8 && !options.previews;
-  const data = untouched ? (src.data as Uint8Array) : (applyCorrection(src.data, src.channels, buildChannelLuts(c, src.depth, 8), inPlace ? src.data : undefined) as Uint8Array);
+  const luts = untouched ? undefined : buildChannelLuts(c, src.depth, 8);
+  // 8-bit pixels are corrected in place; 16-bit ones go to a new 8-bit buffer
+  const data = luts ? (applyCorrection(src.data, src.channels, luts, src.depth === 8 ? src.data : undefined) as Uint8Array) : (src.data as Uint8Array);
   const corrected: ReducedPixels = { data, width: src.width, height: src.height, channels: src.channels, depth: 8 };
   let out = rawImage(corrected);
   const exif = meaningfulExif(full.probe.exif);
   if (Object.keys(exif).length > 0) out = out.withExif(exif);
-  const [encoded, icc] = await Promise.all([out.jpeg({ quality: options.quality ?? 92, optimiseCoding: options.optimiseCoding ?? false }).toBuffer(), srgbIcc()]);
+  const encoding = Promise.all([out.jpeg({ quality: options.quality ?? 92, optimiseCoding: options.optimiseCoding ?? false }).toBuffer(), srgbIcc()]);
+  let previews: RenderResult['previews'];
+  if (reduced) {
+    // the corrected small copy is the same tables applied to the small original, as the review
+    // page's live preview does: a few milliseconds, where a second reduction of the full
+    // corrected pixels costs as much as the first
+    const correctedSmall: ReducedPixels = luts ? { ...reduced, data: applyCorrection(reduced.data, reduced.channels, luts) as Uint8Array, depth: 8 } : reduced;
+    const [original, correctedSet] = await Promise.all([previewSet(reduced, options.previews), luts ? previewSet(correctedSmall, options.previews) : undefined]);
+    previews = { original, corrected: correctedSet ?? original };
+  }
+  const [encoded, icc] = await encoding;
   const withIcc = embedIcc(encoded, icc);
   const buffer = full.probe.density ? stampResolution(withIcc, full.probe.density) : withIcc;
   const result: RenderResult = { buffer, width: corrected.width, height: corrected.height };
-  if (options.previews && (options.previews.preview || options.previews.thumbnail)) {
-    const [original, correctedSet] = await Promise.all([previewSet(src, options.previews), previewSet(corrected, options.previews)]);
-    result.previews = { original, corrected: correctedSet };
-  }
+  if (previews) result.previews = previews;
   return result;
 }
 
@@ -476,9 +521,14 @@ export async function analyseAndRender(input: string | Buffer, options: AnalyseA
   const file = await asBuffer(input);
   const probe = await probeScan(file, options.limits);
   const full = await loadFull(file, options.limits, probe);
+  // libvips reduces the pixels for the previews on its own thread while the analysis runs here
+  const side = options.maxSide ? 0 : smallSide(options.previews);
+  const small = side > 0 ? reduceForPreviews(full, side) : undefined;
+  // a rejection is awaited in renderFromFull; until then it must not count as unhandled
+  small?.catch(() => undefined);
   const analysis = analysePixels(samplePixels(full, options.analysisSide ?? 1280));
   const base = options.correction ?? analysis.proposed;
   const correction = { ...base, strength: options.strength ?? base.strength };
-  const render = await renderFromFull(full, correction, options);
+  const render = await renderFromFull(full, correction, options, small);
   return { ...render, probe, analysis, correction };
 }
