@@ -1,15 +1,8 @@
 import { DataTypes, Model, type CreationOptional, type InferAttributes, type InferCreationAttributes, type Sequelize } from 'sequelize';
 
-export const EXPORT_STATES = ['queued', 'running', 'ready', 'failed'] as const;
-export type ExportState = (typeof EXPORT_STATES)[number];
+import { EXPORT_STATES, type ExportOptions, type ExportSelection, type ExportState } from '../../src/lib/archive/exports.ts';
 
-/** What an export takes: chosen prints, one batch, or everything accepted since the last export. */
-export type ExportSelection = { kind: 'items'; itemIds: string[] } | { kind: 'batch'; batchId: string } | { kind: 'since_last' };
-
-export interface ExportOptions {
-  includeOriginals?: boolean;
-  namePattern?: string;
-}
+export { EXPORT_STATES, type ExportOptions, type ExportSelection, type ExportState };
 
 /** One export of an archive as a BagIt zip, with its progress and the result of its fixity check. */
 export class ArchiveExport extends Model<InferAttributes<ArchiveExport>, InferCreationAttributes<ArchiveExport>> {

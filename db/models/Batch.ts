@@ -1,7 +1,8 @@
 import { DataTypes, Model, type CreationOptional, type InferAttributes, type InferCreationAttributes, type Sequelize } from 'sequelize';
 
-export const SOURCE_KINDS = ['box', 'drawer', 'album', 'envelope', 'other'] as const;
-export type SourceKind = (typeof SOURCE_KINDS)[number];
+import { SOURCE_KINDS, type SourceKind } from '../../src/lib/batches/schemas.ts';
+
+export { SOURCE_KINDS, type SourceKind };
 
 /** One sitting's scans from one physical source (a box, drawer, album or envelope). */
 export class Batch extends Model<InferAttributes<Batch>, InferCreationAttributes<Batch>> {

@@ -1,11 +1,9 @@
 import { DataTypes, Model, type CreationOptional, type InferAttributes, type InferCreationAttributes, type Sequelize } from 'sequelize';
 
-export const ITEM_STATES = ['queued', 'analysing', 'ready', 'failed'] as const;
-export type ItemState = (typeof ITEM_STATES)[number];
-export const DECISIONS = ['accepted', 'accepted_adjusted', 'rescan', 'skipped'] as const;
-export type Decision = (typeof DECISIONS)[number];
-export const NEGATIVE_AVAILABILITY = ['yes', 'no', 'unknown'] as const;
-export type NegativeAvailability = (typeof NEGATIVE_AVAILABILITY)[number];
+import { DECISIONS, ITEM_STATES, NEGATIVE_AVAILABILITY, type Decision, type ItemState, type NegativeAvailability } from '../../src/lib/review/words.ts';
+
+// The value lists live in pure modules that the browser can import too; the model uses them as they are.
+export { DECISIONS, ITEM_STATES, NEGATIVE_AVAILABILITY, type Decision, type ItemState, type NegativeAvailability };
 
 /** One print: its original scan, its analysis, its current correction and the operator's decision. */
 export class Item extends Model<InferAttributes<Item>, InferCreationAttributes<Item>> {

@@ -1,22 +1,10 @@
 import { useEffect, useState } from 'react';
 import { dateInWords } from '../lib/archive/edtf.ts';
 import { DEFAULT_NAME_PATTERN, namePatternSchema } from '../lib/archive/naming.ts';
+import type { ExportStatus } from '../lib/archive/exports.ts';
 import { api, ApiError } from './api-client.ts';
 
-interface ExportRow {
-  id: string;
-  state: 'queued' | 'running' | 'ready' | 'failed';
-  items: number;
-  progress: { done: number; total: number; percent: number };
-  zipBytes: number | null;
-  zipSha256: string | null;
-  verified: boolean;
-  failureReason: string | null;
-  createdAt: string;
-  finishedAt: string | null;
-  downloadUrl: string | null;
-  selection: { kind: string };
-}
+type ExportRow = ExportStatus;
 
 interface Print {
   id: string;

@@ -4,7 +4,7 @@
  */
 import { z } from 'zod';
 
-/** Physical sources a batch can come from (mirrors db/models/Batch.ts SOURCE_KINDS). */
+/** Physical sources a batch can come from (db/models/Batch.ts uses this list). */
 export const SOURCE_KINDS = ['box', 'drawer', 'album', 'envelope', 'other'] as const;
 export type SourceKind = (typeof SOURCE_KINDS)[number];
 
@@ -16,7 +16,7 @@ export const SOURCE_KIND_LABELS: Record<SourceKind, string> = {
   other: 'Something else',
 };
 
-/** Item processing states (mirrors db/models/Item.ts ITEM_STATES). */
+/** Item processing states (db/models/Item.ts uses this list). */
 export const ITEM_STATES = ['queued', 'analysing', 'ready', 'failed'] as const;
 export type ItemState = (typeof ITEM_STATES)[number];
 

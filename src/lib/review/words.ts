@@ -1,11 +1,12 @@
 /**
  * The review workbench's plain words for states, decisions, grades and shortcuts, shared by the
- * pages, the islands and the API. Kept free of db/ imports so islands can use it; a unit test
- * checks the value lists match the Item model's.
+ * pages, the islands and the API. Kept free of db/ imports so islands can use it; the Item model
+ * takes its value lists from here.
  */
 
-export const ITEM_STATES = ['queued', 'analysing', 'ready', 'failed'] as const;
-export type ItemState = (typeof ITEM_STATES)[number];
+import { ITEM_STATE_LABELS, ITEM_STATES, type ItemState } from '../batches/schemas.ts';
+
+export { ITEM_STATES, type ItemState };
 export const DECISIONS = ['accepted', 'accepted_adjusted', 'rescan', 'skipped'] as const;
 export type Decision = (typeof DECISIONS)[number];
 export const NEGATIVE_AVAILABILITY = ['yes', 'no', 'unknown'] as const;
@@ -13,12 +14,7 @@ export type NegativeAvailability = (typeof NEGATIVE_AVAILABILITY)[number];
 export const FADE_GRADES = ['none', 'slight', 'moderate', 'severe'] as const;
 export type FadeGradeName = (typeof FADE_GRADES)[number];
 
-export const STATE_WORDS: Record<ItemState, string> = {
-  queued: 'Waiting',
-  analysing: 'Being analysed',
-  ready: 'Ready for review',
-  failed: 'Failed',
-};
+export const STATE_WORDS: Record<ItemState, string> = ITEM_STATE_LABELS;
 
 export const DECISION_WORDS: Record<Decision | 'undecided', string> = {
   accepted: 'Accepted',

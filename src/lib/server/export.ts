@@ -9,13 +9,12 @@ import { PassThrough } from 'node:stream';
 import { stringify } from 'csv-stringify/sync';
 import sharp from 'sharp';
 import { Op, QueryTypes } from 'sequelize';
-import { z } from 'zod';
 import { Archive, ArchiveExport, Batch, Item, Original, User, db } from '../../../db/index.ts';
-import type { ExportOptions, ExportSelection } from '../../../db/models/ArchiveExport.ts';
+import type { ExportRequest, ExportSelection, ExportStatus } from '../archive/exports.ts';
 import { checkBag, describeBagReport } from '../archive/bagit.ts';
 import { parsePrintDate, type PrintDate } from '../archive/edtf.ts';
 import { buildExif, buildXmp, type EmbeddedMetadata } from '../archive/embed.ts';
-import { DEFAULT_NAME_PATTERN, NameBook, baseName, folderFor, namePatternSchema } from '../archive/naming.ts';
+import { DEFAULT_NAME_PATTERN, NameBook, baseName, folderFor } from '../archive/naming.ts';
 import { requireArchiveRole, requireCurrentArchive, requireUser } from './access.ts';
 import { recordAudit } from './audit.ts';
 import { ZipBagWriter, zipBagSource } from './bag-files.ts';
@@ -37,38 +36,6 @@ export interface ExportJob {
 }
 
 const ACCEPTED = ['accepted', 'accepted_adjusted'] as const;
-
-/** What the export form sends. */
-export const exportRequestSchema = z
-  .object({
-    selection: z.discriminatedUnion('kind', [
-      z.object({ kind: z.literal('items'), itemIds: z.array(z.string().uuid('Not an item id.')).min(1, 'Choose at least one print.').max(20000) }).strict(),
-      z.object({ kind: z.literal('batch'), batchId: z.string().uuid('Not a batch id.') }).strict(),
-      z.object({ kind: z.literal('since_last') }).strict(),
-    ]),
-    includeOriginals: z.boolean().default(false),
-    namePattern: namePatternSchema.default(DEFAULT_NAME_PATTERN),
-  })
-  .strict();
-export type ExportRequest = z.infer<typeof exportRequestSchema>;
-
-/** An export as the API and the page show it. */
-export interface ExportStatus {
-  id: string;
-  state: 'queued' | 'running' | 'ready' | 'failed';
-  selection: ExportSelection;
-  options: ExportOptions;
-  items: number;
-  progress: { done: number; total: number; percent: number };
-  zipBytes: number | null;
-  zipSha256: string | null;
-  verified: boolean;
-  failureReason: string | null;
-  createdAt: string;
-  finishedAt: string | null;
-  downloadUrl: string | null;
-  statusUrl: string;
-}
 
 /** Shapes an export row for the API. */
 export function exportStatus(e: ArchiveExport): ExportStatus {

@@ -11,6 +11,7 @@ import ExifReader from 'exifreader';
 import { ScanRejected, analyseAndRender, loadReduced, meaningfulExif, probeScan, renderCorrected } from '../../../src/lib/restoration/imaging';
 import { identityCorrection } from '../../../src/lib/restoration/correction';
 import { encodeScene, generateScene } from '../../../src/lib/demo/synthetic';
+import { pngWith } from '../../support/bad-corpus.ts';
 
 const dir = mkdtempSync(join(tmpdir(), 'drawerlight-imaging-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
@@ -27,37 +28,9 @@ async function rejection(p: Promise<unknown>): Promise<ScanRejected> {
 }
 
 /** CRC-32 as PNG defines it (ISO/IEC 15948 annex D). */
-function crc32(buf: Buffer): number {
-  let c = ~0;
-  for (const b of buf) {
-    c ^= b;
-    for (let k = 0; k < 8; k++) c = c & 1 ? (c >>> 1) ^ 0xedb88320 : c >>> 1;
-  }
-  return ~c >>> 0;
-}
-
-function pngChunk(type: string, data: Buffer): Buffer {
-  const len = Buffer.alloc(4);
-  len.writeUInt32BE(data.length);
-  const body = Buffer.concat([Buffer.from(type, 'latin1'), data]);
-  const crc = Buffer.alloc(4);
-  crc.writeUInt32BE(crc32(body));
-  return Buffer.concat([len, body, crc]);
-}
-
 /** A PNG whose IHDR claims 50 000 x 50 000 RGB pixels, with a token IDAT: a decompression bomb's header. */
 function bombPng(): Buffer {
-  const ihdr = Buffer.alloc(13);
-  ihdr.writeUInt32BE(50000, 0);
-  ihdr.writeUInt32BE(50000, 4);
-  ihdr[8] = 8; // bit depth
-  ihdr[9] = 2; // colour type RGB
-  return Buffer.concat([
-    Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]),
-    pngChunk('IHDR', ihdr),
-    pngChunk('IDAT', Buffer.from([0x78, 0x9c, 0x03, 0x00, 0x00, 0x00, 0x00, 0x01])),
-    pngChunk('IEND', Buffer.alloc(0)),
-  ]);
+  return pngWith(50000, 50000, 8, 2, Buffer.from([0x78, 0x9c, 0x03, 0x00, 0x00, 0x00, 0x00, 0x01]));
 }
 
 /** 60 x 40 upright test card: red, green / blue, white quadrants. */

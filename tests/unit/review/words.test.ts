@@ -1,19 +1,12 @@
 /** The review workbench's pure helpers: value lists in step with the models, adjustments, the preview. */
 import { describe, expect, it } from 'vitest';
-import { DECISIONS as MODEL_DECISIONS, ITEM_STATES as MODEL_STATES, NEGATIVE_AVAILABILITY as MODEL_NEGATIVE } from '../../../db/models/Item.ts';
 import { FADE_GRADE_THRESHOLDS, gradeFade } from '../../../src/lib/restoration/analysis.ts';
 import { identityCorrection } from '../../../src/lib/restoration/correction.ts';
 import { dyeGain, renderPreview, samplePatch, sameCorrection, withDyeGain, withStrength, withWhitePoint } from '../../../src/lib/review/adjust.ts';
-import { DECISIONS, FADE_GRADES, ITEM_STATES, NEGATIVE_AVAILABILITY, SHORTCUTS } from '../../../src/lib/review/words.ts';
+import { FADE_GRADES, SHORTCUTS } from '../../../src/lib/review/words.ts';
 import { decisionInput } from '../../../src/lib/review/schemas.ts';
 
 describe('review words', () => {
-  it('lists the same states, decisions and negative answers as the Item model', () => {
-    expect([...ITEM_STATES]).toEqual([...MODEL_STATES]);
-    expect([...DECISIONS]).toEqual([...MODEL_DECISIONS]);
-    expect([...NEGATIVE_AVAILABILITY]).toEqual([...MODEL_NEGATIVE]);
-  });
-
   it('lists every grade the engine can give', () => {
     const seen = new Set([gradeFade(0, 0), gradeFade(0.1, 0.05), gradeFade(0.2, 0.12), gradeFade(0.5, 0.3)]);
     expect([...seen].sort()).toEqual([...FADE_GRADES].sort());

@@ -1,5 +1,6 @@
 import { requireCurrentArchive } from '../../../lib/server/access.ts';
-import { exportRequestSchema, listExports, requestExport } from '../../../lib/server/export.ts';
+import { exportRequestSchema } from '../../../lib/archive/exports.ts';
+import { listExports, requestExport } from '../../../lib/server/export.ts';
 import { apiRoute, json, parseInput, readJson } from '../../../lib/server/http.ts';
 
 /** The current archive's exports, newest first (editors). */
