@@ -9,6 +9,23 @@ import { queue, stopQueue } from '../src/lib/server/queue.ts';
 import { HANDLERS } from './registry.ts';
 
 sharp.cache(false);
+
+/**
+ * pg-boss 10 completes and fails jobs without awaiting the call (its manager's onFetch), so one that
+ * meets a database restart becomes an unhandled rejection, which would end the worker. A lost
+ * connection is survivable: the pools reconnect on the next query, pg-boss hands an unfinished job
+ * on again when its lease runs out, and every handler is idempotent. Anything else still ends it.
+ */
+const CONNECTION_LOST = /ECONNREFUSED|ECONNRESET|ETIMEDOUT|EPIPE|57P0[123]|terminating connection|Connection terminated|the database system is (starting up|shutting down)|not queryable/i;
+process.on('unhandledRejection', (reason) => {
+  const text = `${(reason as Error)?.message ?? reason} ${(reason as { code?: string })?.code ?? ''}`;
+  if (CONNECTION_LOST.test(text)) {
+    console.error(`worker ${process.pid}: lost the database connection (${text.trim().slice(0, 200)}); carrying on`);
+    return;
+  }
+  console.error(reason);
+  process.exit(1);
+});
 const c = config();
 const boss = await queue();
 for (const h of HANDLERS) {
