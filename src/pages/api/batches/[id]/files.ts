@@ -5,6 +5,7 @@ import { batchForCaller } from '../../../../lib/server/batches.ts';
 import { InvalidInput, TooLarge } from '../../../../lib/server/errors.ts';
 import { apiRoute, errorResponse, json } from '../../../../lib/server/http.ts';
 import { ingestScan, uploadLimits } from '../../../../lib/server/ingest.ts';
+import { drainingBody } from '../../../../lib/server/request-body.ts';
 
 function fileName(request: Request): string {
   const raw = request.headers.get(FILE_NAME_HEADER);
@@ -28,11 +29,14 @@ export const POST = apiRoute(async ({ locals, params, request }) => {
   const limits = uploadLimits();
   if (Number.isFinite(declared) && declared > limits.maxBytes) throw new TooLarge(`The file is ${Math.round(declared / 1048576)} MB; the limit is ${Math.round(limits.maxBytes / 1048576)} MB.`);
   if (!request.body) throw new InvalidInput('The request has no file in its body.');
+  // A refusal part-way (full disk, over the limit) reads the rest away first, so the client hears it.
+  const upload = drainingBody(request.body, limits.maxBytes);
   try {
-    const result = await ingestScan({ archiveId: batch.archiveId, batchId: batch.id, userId: locals.user!.id, name, body: request.body as unknown as AsyncIterable<Uint8Array>, requestId: locals.requestId });
+    const result = await ingestScan({ archiveId: batch.archiveId, batchId: batch.id, userId: locals.user!.id, name, body: upload.body, requestId: locals.requestId });
     if (result.outcome === 'duplicate') return json(result, 200);
     return json(result, 201, { location: `/api/items/${result.item.id}` });
   } catch (err) {
+    await upload.drained();
     if (err instanceof ScanRejected) return errorResponse(err.status, err.code, err.message, { file: name });
     throw err;
   }
