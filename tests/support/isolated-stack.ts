@@ -99,6 +99,8 @@ export interface IsolatedStack {
   /** Stops every worker with `signal`. */
   stopWorkers(signal?: NodeJS.Signals): Promise<void>;
   workerPids(): number[];
+  /** The web server's pid while it runs. */
+  serverPid(): number | undefined;
   stopPostgres(): void;
   startPostgres(): void;
   /** Stops everything and removes the stack's folder (kept with KEEP_TEST_RUN). */
@@ -161,7 +163,7 @@ export async function startIsolatedStack(opts: IsolatedStackOptions): Promise<Is
     databaseUrl,
     storageDir,
     sql,
-    query: <T>(text: string, replacements: Record<string, unknown> = {}) => sql.query<T>(text, { replacements, type: QueryTypes.SELECT }) as unknown as Promise<T[]>,
+    query: <T>(text: string, replacements: Record<string, unknown> = {}) => sql.query(text, { replacements, type: QueryTypes.SELECT }) as unknown as Promise<T[]>,
     client: (token?: string) => new Client(token, appUrl),
     makeArchive: (label = 'faults') => makeArchiveWithSql(sql, label),
     async startServer() {
@@ -182,6 +184,7 @@ export async function startIsolatedStack(opts: IsolatedStackOptions): Promise<Is
       workers.length = 0;
     },
     workerPids: () => workers.filter((w) => w.running).map((w) => w.child.pid!),
+    serverPid: () => (server?.running ? server.child.pid : undefined),
     stopPostgres,
     startPostgres,
     async stop() {

@@ -1,0 +1,56 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { createBatch, generatedScans, uploadAll, waitSettled } from '../ingest/helpers.ts';
+import type { TestArchive } from '../../support/fixtures.ts';
+import { startIsolatedStack, type IsolatedStack } from '../../support/isolated-stack.ts';
+import { until } from './helpers.ts';
+
+let stack: IsolatedStack;
+let a: TestArchive;
+beforeAll(async () => {
+  stack = await startIsolatedStack({ label: 'pgrestart', workers: 1 });
+  a = await stack.makeArchive('pgrestart');
+});
+afterAll(() => stack?.stop());
+
+describe('PostgreSQL restarted while a batch is processing', () => {
+  it('the web server and the worker recover by themselves: status answers again within seconds and the batch completes', async () => {
+    const editor = stack.client(a.editor.token);
+    const batchId = await createBatch(editor, 'Through a database restart');
+    const files = await generatedScans(24, 8000, { width: 400, height: 300 });
+    const replies = await uploadAll(editor, batchId, files, 4);
+    expect(replies.map((r) => r.status)).toEqual(files.map(() => 201));
+    const serverPid = stack.serverPid();
+    const workerPids = stack.workerPids();
+
+    await until('a few prints ready and others waiting', async () => {
+      const c = (await editor.get(`/api/batches/${batchId}`)).body.counts;
+      return c.ready >= 2 && c.queued + c.analysing > 4 && c;
+    });
+    stack.stopPostgres();
+    // While the database is away the server answers (an error), it does not hang or die.
+    const during = await editor.get(`/api/batches/${batchId}`);
+    expect(during.status).toBeGreaterThanOrEqual(500);
+    await new Promise((r) => setTimeout(r, 3000));
+    stack.startPostgres();
+    const back = Date.now();
+
+    await until('the batch status answering again', async () => (await editor.get(`/api/batches/${batchId}`)).status === 200, 30_000);
+    const recoveredMs = Date.now() - back;
+    // "Within seconds": the pool's retries reconnect on the next request.
+    expect(recoveredMs).toBeLessThan(10_000);
+
+    const status = await waitSettled(editor, batchId, 150_000);
+    expect(status.counts).toMatchObject({ total: 24, ready: 24, failed: 0 });
+    const proposed = await stack.query<{ n: string }>(
+      "SELECT count(*) AS n FROM corrections c JOIN items i ON i.id = c.item_id WHERE i.batch_id = :batchId AND c.origin = 'proposed'",
+      { batchId },
+    );
+    expect(Number(proposed[0].n)).toBe(24);
+    // Nobody restarted them: the same server and worker processes did the rest.
+    expect(stack.serverPid()).toBe(serverPid);
+    expect(stack.workerPids()).toEqual(workerPids);
+    // And new work after the restart goes through too.
+    const more = await uploadAll(editor, batchId, await generatedScans(1, 8100, { width: 400, height: 300 }), 1);
+    expect(more[0].status).toBe(201);
+  }, 200_000);
+});
