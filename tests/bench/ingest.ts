@@ -10,7 +10,7 @@
  * Ends with `ingest_ratio`, `server_peak_rss_mb` and `worker_peak_rss_mb`.
  */
 import { createReadStream, mkdtempSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Readable } from 'node:stream';
 import sharp from 'sharp';
@@ -37,6 +37,13 @@ function memory(pid: number): { rss: number; hwm: number } {
   return { rss: kb('VmRSS') / 1024, hwm: kb('VmHWM') / 1024 };
 }
 
+/** User + system CPU seconds a process has used so far (/proc/<pid>/stat, clock ticks of 1/100 s). */
+function cpuSeconds(pid: number): number {
+  const fields = readFileSync(`/proc/${pid}/stat`, 'utf8').replace(/^.*\) /, '').split(' ');
+  // after the command name: state is field 3, utime field 14, stime field 15
+  return (Number(fields[11]) + Number(fields[12])) / 100;
+}
+
 async function generate(dir: string): Promise<string[]> {
   const t0 = performance.now();
   const scenes = [
@@ -59,27 +66,32 @@ async function generate(dir: string): Promise<string[]> {
   return files;
 }
 
-/** One core's bare decode -> encode of one scan, in ms (mean of FLOOR_SAMPLES after a warm-up). */
-async function bareMs(file: string): Promise<number> {
+/** One core's bare decode -> encode of one scan (sharp's defaults), wall and CPU ms (mean of FLOOR_SAMPLES after a warm-up). */
+async function bareMs(file: string): Promise<{ wall: number; cpu: number }> {
   sharp.concurrency(1);
   const bytes = readFileSync(file);
   await sharp(bytes).jpeg({ quality: 92 }).toBuffer();
+  const c0 = process.cpuUsage();
   const t0 = performance.now();
   for (let i = 0; i < FLOOR_SAMPLES; i++) await sharp(bytes).jpeg({ quality: 92 }).toBuffer();
-  return (performance.now() - t0) / FLOOR_SAMPLES;
+  const c = process.cpuUsage(c0);
+  return { wall: (performance.now() - t0) / FLOOR_SAMPLES, cpu: (c.user + c.system) / 1000 / FLOOR_SAMPLES };
 }
 
 /**
  * The engine alone, as the worker calls it (one decode: analysis, render, 1600 px previews), two
  * scans at a time, in ms per scan: where the pipeline's time goes, apart from upload, storage and queue.
  */
-async function engineMs(files: string[]): Promise<number> {
+async function engineMs(files: string[]): Promise<{ wall: number; cpu: number }> {
   sharp.concurrency(0);
   const bytes = files.slice(0, FLOOR_SAMPLES).map((f) => readFileSync(f));
   await analyseAndRender(bytes[0], { previews: { preview: 1600 } });
+  const c0 = process.cpuUsage();
   const t0 = performance.now();
   for (let i = 0; i + 1 < bytes.length; i += 2) await Promise.all([analyseAndRender(bytes[i], { previews: { preview: 1600 } }), analyseAndRender(bytes[i + 1], { previews: { preview: 1600 } })]);
-  return (performance.now() - t0) / (bytes.length - (bytes.length % 2));
+  const c = process.cpuUsage(c0);
+  const n = bytes.length - (bytes.length % 2);
+  return { wall: (performance.now() - t0) / n, cpu: (c.user + c.system) / 1000 / n };
 }
 
 async function api(token: string, method: string, path: string, body?: unknown) {
@@ -105,12 +117,14 @@ async function uploadFile(token: string, batchId: string, file: string): Promise
 const work = mkdtempSync(join(tmpdir(), 'drawerlight-bench-ingest-'));
 try {
   const files = await generate(work);
-  const floorMs = await bareMs(files[0]);
+  console.log(`load average at start: ${loadavg().map((x) => x.toFixed(2)).join(' ')}`);
+  const bare = await bareMs(files[0]);
+  const floorMs = bare.wall;
   const floorS = (COUNT * floorMs) / 1000 / CORES;
-  console.log(`bare sharp decode -> JPEG q92, one core: ${floorMs.toFixed(1)} ms/scan; floor for ${COUNT} on ${CORES} cores: ${floorS.toFixed(2)} s`);
+  console.log(`bare sharp decode -> JPEG q92 (sharp's defaults), one core: ${floorMs.toFixed(1)} ms/scan wall, ${bare.cpu.toFixed(1)} ms/scan CPU; floor for ${COUNT} on ${CORES} cores: ${floorS.toFixed(2)} s`);
 
   const engine = await engineMs(files);
-  console.log(`engine alone (analyse + render + previews), two at a time: ${engine.toFixed(1)} ms/scan; engine_only_ratio: ${((engine * COUNT) / 1000 / floorS).toFixed(2)}`);
+  console.log(`engine alone (analyse + render + previews), two at a time: ${engine.wall.toFixed(1)} ms/scan wall, ${engine.cpu.toFixed(1)} ms/scan CPU; engine_only_ratio: ${((engine.wall * COUNT) / 1000 / floorS).toFixed(2)}; engine_cpu_ratio_to_bare: ${(engine.cpu / bare.cpu).toFixed(2)}`);
 
   const archive = await makeArchive('bench-ingest');
   const token = archive.editor.token;
@@ -118,6 +132,7 @@ try {
   if (created.status !== 201) throw new Error(`could not create the batch: ${JSON.stringify(created.body)}`);
   const batchId = created.body.id as string;
 
+  const cpuBefore = { server: cpuSeconds(serverPid), worker: cpuSeconds(workerPid), bench: process.cpuUsage() };
   const before = { server: memory(serverPid), worker: memory(workerPid) };
   console.log(`before: server ${before.server.rss.toFixed(0)} MB, worker ${before.worker.rss.toFixed(0)} MB resident`);
   const peak = { server: 0, worker: 0 };
@@ -159,6 +174,8 @@ try {
     await new Promise((r) => setTimeout(r, 100));
   }
   const totalS = (performance.now() - t0) / 1000;
+  const benchCpu = process.cpuUsage(cpuBefore.bench);
+  const cpuUsed = { server: cpuSeconds(serverPid) - cpuBefore.server, worker: cpuSeconds(workerPid) - cpuBefore.worker, bench: (benchCpu.user + benchCpu.system) / 1e6 };
   await uploads;
   clearInterval(sampler);
   const after = { server: memory(serverPid), worker: memory(workerPid) };
@@ -169,6 +186,10 @@ try {
   console.log(`uploads: ${statuses.length} answered, ${refused} not 201; all uploaded after ${((uploadedAt - t0) / 1000).toFixed(1)} s`);
   console.log(`items: ${counts.ready} ready, ${counts.failed} failed`);
   console.log(`ingest of ${COUNT} scans until all ready: ${totalS.toFixed(2)} s (${((totalS * 1000) / COUNT).toFixed(0)} ms/scan)`);
+  const per = (s: number) => ((s * 1000) / COUNT).toFixed(1);
+  console.log(`CPU per scan: worker ${per(cpuUsed.worker)} ms, web server ${per(cpuUsed.server)} ms, this uploading client ${per(cpuUsed.bench)} ms (PostgreSQL not counted); worker_cpu_ratio_to_bare: ${((cpuUsed.worker * 1000) / COUNT / bare.cpu).toFixed(2)}`);
+  console.log(`load average at end: ${loadavg().map((x) => x.toFixed(2)).join(' ')}`);
+  console.log('ingest_ratio is the wall time until all are ready against the bare decode -> encode with sharp\'s defaults, times the count, over 2 cores');
   console.log(`ingest_ratio: ${(totalS / floorS).toFixed(2)}`);
   console.log(`server_peak_rss_mb: ${peak.server.toFixed(0)}`);
   console.log(`worker_peak_rss_mb: ${peak.worker.toFixed(0)}`);

@@ -141,7 +141,7 @@ export interface StoredScan {
 
 /**
  * Streams one scan into the archive's originals, once: staged and hashed, judged by its bytes
- * and header, then stored write-once under its SHA-256 (or matched to the original that
+ * and header, then linked write-once under its SHA-256 (or matched to the original that
  * already holds the same bytes). Makes no item; {@link ingestScan} and the rescan flow build on it.
  * @throws {ScanRejected} for a file that is not a scan we can take (type, size, pixels, damaged header)
  * @throws {TooLarge} when the stream passes the byte limit
@@ -161,8 +161,8 @@ export async function storeScanOriginal(input: Omit<IngestInput, 'batchId'>): Pr
     const existing = await Original.findOne({ where: { archiveId: input.archiveId, sha256 } });
     if (existing) return { original: existing, sha256, probe, created: false };
     const format = FORMAT_FILE[probe.format];
-    const blob = await store.putContentAddressed('originals', store.read(stageKey), { maxBytes: limits.maxBytes, ext: format.ext });
-    if (blob.sha256 !== sha256) throw new Error(`checksum changed between staging and storing (${sha256} then ${blob.sha256})`);
+    // linked, not copied: the staged file becomes the original (its hash checked again on the way)
+    const blob = await store.linkContentAddressed('originals', stageKey, sha256, { ext: format.ext });
     const exif = await readScanExif(stagePath, probe);
     const [original, created] = await Original.findOrCreate({
       where: { archiveId: input.archiveId, sha256 },

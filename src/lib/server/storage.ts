@@ -24,6 +24,13 @@ export interface StoredBlob {
 export interface BlobStore {
   /** Streams into the store under `<prefix>/<sha[0..2]>/<sha256><ext>`, hashing while writing; refuses more than maxBytes. */
   putContentAddressed(prefix: string, body: Readable | AsyncIterable<Uint8Array>, opts?: { maxBytes?: number; ext?: string }): Promise<StoredBlob>;
+  /**
+   * Files a staged file of this store (written with {@link put} under a key outside the write-once
+   * prefixes) under `<prefix>/<sha[0..2]>/<sha256><ext>` without copying it: the bytes are hashed
+   * again and must match `sha256`, made durable, then linked; the staged key is left for the
+   * caller to remove. Same result and rules as {@link putContentAddressed}.
+   */
+  linkContentAddressed(prefix: string, stagedKey: string, sha256: string, opts?: { ext?: string }): Promise<StoredBlob>;
   /** Writes a derived file (render, preview, export) atomically; an existing one is replaced. */
   put(key: string, body: Buffer | Readable | AsyncIterable<Uint8Array>): Promise<{ key: string; bytes: number }>;
   read(key: string, range?: { start: number; end?: number }): Readable;
@@ -125,6 +132,42 @@ export class LocalDiskStore implements BlobStore {
     }
     await fs.rm(tmp, { force: true });
     return { key, sha256, bytes: meter.bytes, created };
+  }
+
+  async linkContentAddressed(prefix: string, stagedKey: string, sha256: string, opts: { ext?: string } = {}): Promise<StoredBlob> {
+    if (WRITE_ONCE_PREFIXES.some((p) => stagedKey.startsWith(p))) throw new StorageKeyRefused(stagedKey);
+    const staged = this.abs(stagedKey);
+    const key = checkKey(`${prefix}/${sha256.slice(0, 2)}/${sha256}${opts.ext ?? ''}`);
+    const final = this.abs(key);
+    // Hash what is on disk, not what the caller says: the key must name these very bytes.
+    const handle = await fs.open(staged, 'r');
+    let bytes = 0;
+    try {
+      const hash = createHash('sha256');
+      for await (const chunk of handle.createReadStream({ autoClose: false })) {
+        hash.update(chunk as Buffer);
+        bytes += (chunk as Buffer).length;
+      }
+      const found = hash.digest('hex');
+      if (found !== sha256) throw new Error(`checksum of the staged file is ${found}, not ${sha256}`);
+      await handle.sync();
+    } finally {
+      await handle.close();
+    }
+    await fs.mkdir(path.dirname(final), { recursive: true });
+    let created = true;
+    try {
+      // link() refuses to replace an existing file, which makes the write-once rule atomic.
+      await fs.link(staged, final);
+      if (WRITE_ONCE_PREFIXES.some((p) => key.startsWith(p))) await fs.chmod(final, 0o444);
+    } catch (err) {
+      if ((err as NodeJS.ErrnoException).code !== 'EEXIST') {
+        if (isNoSpace(err)) throw new StorageFull();
+        throw err;
+      }
+      created = false;
+    }
+    return { key, sha256, bytes, created };
   }
 
   async put(key: string, body: Buffer | Readable | AsyncIterable<Uint8Array>): Promise<{ key: string; bytes: number }> {
