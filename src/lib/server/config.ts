@@ -22,6 +22,7 @@ const envSchema = z.object({
   MAX_MEGAPIXELS: z.coerce.number().positive().default(150),
   WORKER_CONCURRENCY: z.coerce.number().int().min(1).max(8).default(2),
   STALE_UPLOAD_MINUTES: z.coerce.number().positive().default(30),
+  EXPORT_STALL_SECONDS: z.coerce.number().positive().default(600),
   SIGNIN_ATTEMPTS_PER_15_MIN: z.coerce.number().int().positive().default(10),
 });
 
@@ -65,6 +66,8 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env) {
     workerConcurrency: e.WORKER_CONCURRENCY,
     /** A staged or half-written file untouched this long belongs to a process that died (src/lib/server/stale-files.ts). */
     staleUploadMs: Math.round(e.STALE_UPLOAD_MINUTES * 60_000),
+    /** A running export whose progress has not moved for this long lost its worker and is sent again. */
+    exportStallMs: Math.round(e.EXPORT_STALL_SECONDS * 1000),
     signinAttemptsPer15Min: e.SIGNIN_ATTEMPTS_PER_15_MIN,
   };
 }

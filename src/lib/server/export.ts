@@ -210,6 +210,24 @@ async function embeddedJpeg(renderPath: string, meta: EmbeddedMetadata): Promise
  * keeps progress on the row, verifies the zip's bag, and tells the requester. Idempotent: a
  * finished export is left alone; a retried one starts its zip again under the same key.
  */
+/**
+ * Sends exports whose worker died back to the queue: state `running` with no progress saved for
+ * `exportStallMs` (a live run saves progress at least every half second per print). The old job
+ * stays leased until pg-boss expires it and then finds the export ready. Returns how many.
+ */
+export async function resumeStalledExports(now = Date.now()): Promise<number> {
+  const stalled = await ArchiveExport.findAll({ where: { state: 'running', updatedAt: { [Op.lt]: new Date(now - config().exportStallMs) } }, attributes: ['id', 'updatedAt'] });
+  let resumed = 0;
+  for (const e of stalled) {
+    // Only one sweeping worker wins the row: the update matches the time it saw.
+    const [n] = await ArchiveExport.update({ state: 'queued' }, { where: { id: e.id, state: 'running', updatedAt: e.updatedAt } });
+    if (!n) continue;
+    await (await queue()).send(EXPORT_QUEUE.name, { exportId: e.id } satisfies ExportJob);
+    resumed++;
+  }
+  return resumed;
+}
+
 export async function runExport(exportId: string): Promise<void> {
   const e = await ArchiveExport.findByPk(exportId);
   if (!e || e.state === 'ready') return;
