@@ -36,3 +36,44 @@ cluster_parent() {
     echo "/var/lib/drawerlight/$(echo -n "$root" | sha1sum | cut -c1-10)"
   fi
 }
+
+# Three free TCP ports on 127.0.0.1, space-separated.
+free_ports() {
+  node -e '
+    const net = require("net");
+    const take = () => new Promise((r) => { const s = net.createServer(); s.listen(0, "127.0.0.1", () => { const p = s.address().port; s.close(() => r(p)); }); });
+    Promise.all([take(), take(), take()]).then((p) => console.log(p.join(" ")));'
+}
+
+# A throwaway stack for the tests or a benchmark: a run folder under /tmp, free ports, a PostgreSQL
+# cluster of its own with fsync off (never the development data), and the environment the app,
+# the worker and the scripts read. Sets `run`; `throwaway_cleanup` removes it all again.
+#   throwaway_stack <root> <kind>     (kind: test | bench)
+throwaway_stack() {
+  local root=$1 kind=$2 pg_port app_port smtp_port
+  run=$(mktemp -d "/tmp/drawerlight-$kind.XXXXXX")
+  chmod 755 "$run"
+  read -r pg_port app_port smtp_port <<<"$(free_ports)"
+  bash "$root/db/cluster.sh" ensure "$run/pg" "$pg_port" "drawerlight_$kind" throwaway >/dev/null
+  export APP_ENV=test
+  export DATABASE_URL="postgres://drawerlight@127.0.0.1:$pg_port/drawerlight_$kind"
+  export APP_URL="http://127.0.0.1:$app_port"
+  export SMTP_PORT="$smtp_port"
+  export STORAGE_DIR="$run/storage"
+  export DRAWERLIGHT_PG_PORT="$pg_port"
+  # Each run builds into its own folder so runs side by side do not overwrite each other.
+  export DRAWERLIGHT_OUT_DIR="./dist/$(basename "$run")"
+  mkdir -p "$STORAGE_DIR" "$run/logs"
+}
+
+# Stops the throwaway cluster and removes the run folder and its build (KEEP_TEST_RUN=1 keeps them).
+throwaway_cleanup() {
+  local root=$1
+  bash "$root/db/cluster.sh" stop "$run/pg" >/dev/null 2>&1 || true
+  if [ -z "${KEEP_TEST_RUN:-}" ]; then rm -rf "$run" "$root/dist/$(basename "$run")"; else echo "run kept in $run" >&2; fi
+}
+
+# Builds the app into $DRAWERLIGHT_OUT_DIR, showing the log only when the build fails.
+build_quietly() {
+  npx astro build >"$run/logs/build.log" 2>&1 || { cat "$run/logs/build.log"; exit 1; }
+}

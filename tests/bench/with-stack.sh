@@ -15,12 +15,8 @@ shift
 ensure_node_modules "$root"
 ensure_debian_package libjemalloc2 /usr/lib/x86_64-linux-gnu/libjemalloc.so.2
 
-run=$(mktemp -d /tmp/drawerlight-bench.XXXXXX)
-chmod 755 "$run"
-read -r pg_port app_port smtp_port <<<"$(node -e '
-  const net = require("net");
-  const take = () => new Promise((r) => { const s = net.createServer(); s.listen(0, "127.0.0.1", () => { const p = s.address().port; s.close(() => r(p)); }); });
-  Promise.all([take(), take(), take()]).then((p) => console.log(p.join(" ")));')"
+throwaway_stack "$root" bench
+export DRAWERLIGHT_BENCH_RUN="$run"
 
 pids=()
 cleanup() {
@@ -29,8 +25,7 @@ cleanup() {
     for _ in $(seq 1 100); do kill -0 "$pid" 2>/dev/null || break; sleep 0.1; done
     kill -9 "$pid" 2>/dev/null || true
   done
-  bash "$root/db/cluster.sh" stop "$run/pg" >/dev/null 2>&1 || true
-  if [ -z "${KEEP_BENCH_RUN:-}" ]; then rm -rf "$run" "$root/dist/$(basename "$run")"; else echo "bench run kept in $run" >&2; fi
+  KEEP_TEST_RUN="${KEEP_BENCH_RUN:-}" throwaway_cleanup "$root"
 }
 trap cleanup EXIT
 
@@ -44,23 +39,13 @@ wait_port() {
   exit 1
 }
 
-bash db/cluster.sh ensure "$run/pg" "$pg_port" drawerlight_bench throwaway >/dev/null
-export APP_ENV=test
-export DATABASE_URL="postgres://drawerlight@127.0.0.1:$pg_port/drawerlight_bench"
-export APP_URL="http://127.0.0.1:$app_port"
-export SMTP_PORT="$smtp_port"
-export STORAGE_DIR="$run/storage"
-export DRAWERLIGHT_BENCH_RUN="$run"
-export DRAWERLIGHT_OUT_DIR="./dist/$(basename "$run")"
-mkdir -p "$STORAGE_DIR" "$run/logs"
-
 echo "with-stack: building the app ..." >&2
-npx astro build >"$run/logs/build.log" 2>&1 || { cat "$run/logs/build.log"; exit 1; }
+build_quietly
 node --import tsx src/scripts/migrate.ts >"$run/logs/migrate.log" 2>&1 || { cat "$run/logs/migrate.log"; exit 1; }
 
 node --import tsx src/scripts/mail-fake.ts >"$run/logs/mail-fake.log" 2>&1 &
 pids+=($!)
-HOST=127.0.0.1 PORT="$app_port" node "$DRAWERLIGHT_OUT_DIR/server/entry.mjs" >"$run/logs/server.log" 2>&1 &
+HOST=127.0.0.1 PORT="${APP_URL##*:}" node "$DRAWERLIGHT_OUT_DIR/server/entry.mjs" >"$run/logs/server.log" 2>&1 &
 server_pid=$!
 pids+=($server_pid)
 jemalloc=/usr/lib/x86_64-linux-gnu/libjemalloc.so.2
@@ -71,8 +56,8 @@ else
 fi
 worker_pid=$!
 pids+=($worker_pid)
-wait_port "$smtp_port" 'the mail fake'
-wait_port "$app_port" 'the web server'
+wait_port "$SMTP_PORT" 'the mail fake'
+wait_port "${APP_URL##*:}" 'the web server'
 
 export DRAWERLIGHT_SERVER_PID=$server_pid
 export DRAWERLIGHT_WORKER_PID=$worker_pid
