@@ -12,12 +12,15 @@ export const ARTIFACTS = path.resolve('tests/artifacts');
 
 export async function launchBrowser(): Promise<BrowserContext> {
   const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'drawerlight-chromium-'));
-  return chromium.launchPersistentContext(dir, {
+  const context = await chromium.launchPersistentContext(dir, {
     executablePath: '/usr/bin/chromium',
     headless: true,
     viewport: { width: 1280, height: 860 },
     args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'],
   });
+  // The profile folder is the test's own: gone with the browser.
+  context.on('close', () => fs.rmSync(dir, { recursive: true, force: true }));
+  return context;
 }
 
 /** Saves a full-page screenshot under tests/artifacts/<name>.png. */
