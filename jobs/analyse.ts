@@ -7,7 +7,7 @@
 import type PgBoss from 'pg-boss';
 import { Op, QueryTypes } from 'sequelize';
 import { Correction, Item, Original, db } from '../db/index.ts';
-import { analyseAndRender, ScanRejected } from '../src/lib/restoration/imaging.ts';
+import { ScanRejected } from '../src/lib/restoration/imaging.ts';
 import { uploadLimits } from '../src/lib/server/ingest.ts';
 import {
   ANALYSE_QUEUE,
@@ -15,13 +15,15 @@ import {
   enqueueAnalyse,
   enqueueBatchSettled,
   PREVIEW_SIDE,
+  THUMBNAIL_SIDE,
   type AnalyseJob,
 } from '../src/lib/server/processing.ts';
 import { queue } from '../src/lib/server/queue.ts';
 import { storage } from '../src/lib/server/storage.ts';
 import { removeStaleTemporaries } from '../src/lib/server/stale-files.ts';
 import { config } from '../src/lib/server/config.ts';
-import { eachAtMost, Slots, thumbnailFromPreview } from './derived.ts';
+import { eachAtMost } from './derived.ts';
+import { enginePool } from './engine-pool.ts';
 import type { JobHandler } from './registry.ts';
 
 /** Marks an item failed with a reason fit to show the archivist. */
@@ -46,7 +48,8 @@ async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<voi
   const started = performance.now();
   try {
     const path = await store.localPath(item.original.storageKey);
-    const result = await engineSlots.run(() => analyseAndRender(path, { previews: { preview: PREVIEW_SIDE }, limits: uploadLimits() }));
+    // thumbnails come from the engine's small copy of the decode, not from decoding the previews again
+    const result = await engine.analyseAndRender(path, { previews: { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE }, limits: uploadLimits() });
     // The next free version: 1 for a new print, later for a print whose scan was replaced
     // (a rescan from the negative). A re-run before the commit below computes the same number
     // and overwrites the same files; after the commit the item is ready and the run stops above.
@@ -59,11 +62,10 @@ async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<voi
     await store.put(keys.render, result.buffer);
     const engineDone = performance.now();
     const previews = result.previews!;
-    const [originalThumb, correctedThumb] = await Promise.all([thumbnailFromPreview(previews.original.preview!), thumbnailFromPreview(previews.corrected.preview!)]);
     await store.put(keys.preview, previews.original.preview!);
-    await store.put(keys.thumbnail, originalThumb);
+    await store.put(keys.thumbnail, previews.original.thumbnail!);
     await store.put(derivedKeys.renderPreview(item.id, version), previews.corrected.preview!);
-    await store.put(derivedKeys.renderThumbnail(item.id, version), correctedThumb);
+    await store.put(derivedKeys.renderThumbnail(item.id, version), previews.corrected.thumbnail!);
 
     const filesDone = performance.now();
     await db().transaction(async (transaction) => {
@@ -147,23 +149,25 @@ setInterval(() => {
 }, SWEEP_SECONDS * 1000).unref();
 
 /**
- * Two images at a time on two cores (WORKER_CONCURRENCY): only the decode-analyse-render step
- * holds one of these slots, so one scan's files and database rows are written while the next
- * scan is already decoding.
+ * Two images at a time on two cores (WORKER_CONCURRENCY), each on an engine thread of its own:
+ * only the decode-analyse-render step holds a thread, so one scan's files and database rows are
+ * written while the next scan is already decoding.
  */
 const AT_ONCE = config().workerConcurrency;
-const engineSlots = new Slots(AT_ONCE);
+const engine = enginePool();
 
 /**
- * One polling loop per worker fetches a few jobs at a time: pg-boss waits out the rest of its
- * polling interval after every handler call, which with one sub-second scan per call leaves the
- * cores idle much of the time.
+ * Two polling loops per worker, each fetching a few jobs at a time: pg-boss waits out the rest
+ * of its polling interval after every handler call, and a loop only fetches again once all of
+ * its jobs are done. With two loops sharing the engine slots, one loop's next jobs are fetched
+ * while the other's last scans still hold the slots, so the cores do not wait on the tail of a fetch.
  */
-const FETCH = 3 * AT_ONCE;
+const FETCH = AT_ONCE + 1;
+const LOOPS = 2;
 
 export const analyseHandler: JobHandler = {
   queue: ANALYSE_QUEUE.name,
-  concurrency: () => 1,
+  concurrency: () => LOOPS,
   // includeMetadata makes pg-boss hand over retryCount and retryLimit with each job.
   workOptions: { includeMetadata: true, batchSize: FETCH },
   handle: (async (jobs: PgBoss.JobWithMetadata<AnalyseJob>[]) => {

@@ -8,11 +8,11 @@ import type PgBoss from 'pg-boss';
 import { Op } from 'sequelize';
 import { Correction, Item, Original } from '../db/index.ts';
 import { correctionSchema } from '../src/lib/restoration/correction.ts';
-import { renderCorrected, ScanRejected } from '../src/lib/restoration/imaging.ts';
+import { ScanRejected } from '../src/lib/restoration/imaging.ts';
 import { uploadLimits } from '../src/lib/server/ingest.ts';
-import { derivedKeys, PREVIEW_SIDE, RENDER_QUEUE, type RenderJob } from '../src/lib/server/processing.ts';
+import { derivedKeys, PREVIEW_SIDE, RENDER_QUEUE, THUMBNAIL_SIDE, type RenderJob } from '../src/lib/server/processing.ts';
 import { storage } from '../src/lib/server/storage.ts';
-import { thumbnailFromPreview } from './derived.ts';
+import { enginePool } from './engine-pool.ts';
 import type { JobHandler } from './registry.ts';
 
 async function renderVersion(job: PgBoss.Job<RenderJob>): Promise<void> {
@@ -25,10 +25,15 @@ async function renderVersion(job: PgBoss.Job<RenderJob>): Promise<void> {
   const store = storage();
   const key = derivedKeys.render(itemId, version);
   try {
-    const result = await renderCorrected(await store.localPath(item.original.storageKey), correctionSchema.parse(correction.params), { previews: { preview: PREVIEW_SIDE } }, uploadLimits());
+    const result = await enginePool().renderCorrected(
+      await store.localPath(item.original.storageKey),
+      correctionSchema.parse(correction.params),
+      { previews: { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE, correctedOnly: true } },
+      uploadLimits(),
+    );
     await store.put(key, result.buffer);
     await store.put(derivedKeys.renderPreview(itemId, version), result.previews!.corrected.preview!);
-    await store.put(derivedKeys.renderThumbnail(itemId, version), await thumbnailFromPreview(result.previews!.corrected.preview!));
+    await store.put(derivedKeys.renderThumbnail(itemId, version), result.previews!.corrected.thumbnail!);
   } catch (err) {
     // The scan decoded once already; if it no longer does, keep the earlier render and say why.
     if (err instanceof ScanRejected) {

@@ -278,8 +278,11 @@ export interface RenderOptions {
   optimiseCoding?: boolean;
   /** Scale the render down to this long side (the full-resolution render when absent). */
   maxSide?: number;
-  /** Also make small JPEGs of the original and the corrected image from the same decode. */
-  previews?: { thumbnail?: number; preview?: number };
+  /**
+   * Also make small JPEGs of the original and the corrected image from the same decode.
+   * `correctedOnly` leaves out the original's (a re-render, whose original's copies exist).
+   */
+  previews?: { thumbnail?: number; preview?: number; correctedOnly?: boolean };
 }
 
 export interface PreviewSet {
@@ -464,8 +467,9 @@ async function renderFromFull(full: FullPixels, correction: Correction, options:
     // page's live preview does: a few milliseconds, where a second reduction of the full
     // corrected pixels costs as much as the first
     const correctedSmall: ReducedPixels = luts ? { ...reduced, data: applyCorrection(reduced.data, reduced.channels, luts) as Uint8Array, depth: 8 } : reduced;
-    const [original, correctedSet] = await Promise.all([previewSet(reduced, options.previews), luts ? previewSet(correctedSmall, options.previews) : undefined]);
-    previews = { original, corrected: correctedSet ?? original };
+    const wantOriginal = !options.previews?.correctedOnly;
+    const [original, correctedSet] = await Promise.all([wantOriginal || !luts ? previewSet(reduced, options.previews) : {}, luts ? previewSet(correctedSmall, options.previews) : undefined]);
+    previews = { original: wantOriginal ? original : {}, corrected: correctedSet ?? original };
   }
   const [encoded, icc] = await encoding;
   const withIcc = embedIcc(encoded, icc);

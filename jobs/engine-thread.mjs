@@ -1,0 +1,5 @@
+// Start of an engine thread (jobs/engine-pool.ts): worker threads do not inherit the tsx loader
+// the worker process runs under, so the thread registers it before loading the TypeScript.
+const { register } = await import('tsx/esm/api');
+register();
+await import('./engine-thread.ts');
