@@ -22,7 +22,7 @@ import { queue } from '../src/lib/server/queue.ts';
 import { storage } from '../src/lib/server/storage.ts';
 import { removeStaleTemporaries } from '../src/lib/server/stale-files.ts';
 import { config } from '../src/lib/server/config.ts';
-import { eachAtMost } from './derived.ts';
+import { eachAtMost } from './each-at-most.ts';
 import { enginePool } from './engine-pool.ts';
 import type { JobHandler } from './registry.ts';
 

@@ -1,5 +1,6 @@
 import { useState } from 'react';
 import { api, ApiError } from './api-client.ts';
+import { useHydrated } from './use-hydrated.ts';
 
 interface Props { token: string; email: string; archiveName: string; needsAccount: boolean; signedInAs: string | null }
 
@@ -9,6 +10,7 @@ export default function InvitationAccept(props: Props) {
   const [password, setPassword] = useState('');
   const [error, setError] = useState<ApiError | null>(null);
   const [busy, setBusy] = useState(false);
+  const hydrated = useHydrated();
 
   async function accept(e: React.FormEvent) {
     e.preventDefault();
@@ -24,7 +26,8 @@ export default function InvitationAccept(props: Props) {
   }
 
   return (
-    <form onSubmit={accept} className="space-y-4">
+    <form onSubmit={accept}>
+      <fieldset disabled={!hydrated} className="space-y-4">
       {error && <p className="notice-error" role="alert">{error.message}</p>}
       {props.needsAccount ? (
         <>
@@ -43,6 +46,7 @@ export default function InvitationAccept(props: Props) {
         <p className="text-sm text-ink-700">{props.signedInAs ? `You are signed in as ${props.signedInAs}.` : `Sign in as ${props.email} first, then open this link again.`}</p>
       )}
       <button className="btn-primary w-full" type="submit" disabled={busy || (!props.needsAccount && !props.signedInAs)}>Join the {props.archiveName}</button>
+      </fieldset>
     </form>
   );
 }

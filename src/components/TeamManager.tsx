@@ -1,5 +1,6 @@
 import { useState } from 'react';
 import { api, ApiError } from './api-client.ts';
+import { useHydrated } from './use-hydrated.ts';
 
 type Role = 'owner' | 'editor' | 'viewer';
 interface Member { membershipId: string; userId: string; email: string; name: string | null; role: Role }
@@ -16,6 +17,7 @@ export default function TeamManager(props: Props) {
   const [role, setRole] = useState<Role>('viewer');
   const [message, setMessage] = useState<{ kind: 'ok' | 'error'; text: string } | null>(null);
   const [busy, setBusy] = useState(false);
+  const hydrated = useHydrated();
 
   const report = (err: unknown) => setMessage({ kind: 'error', text: err instanceof ApiError ? err.message + (Object.values(err.fields)[0] ? ` ${Object.values(err.fields)[0]}` : '') : String(err) });
 
@@ -67,7 +69,7 @@ export default function TeamManager(props: Props) {
   }
 
   return (
-    <div className="space-y-6">
+    <fieldset disabled={!hydrated} className="space-y-6">
       {message && (
         <p role={message.kind === 'error' ? 'alert' : 'status'} className={message.kind === 'error' ? 'notice-error' : 'notice'} data-team-message>
           {message.text}
@@ -126,6 +128,6 @@ export default function TeamManager(props: Props) {
           </ul>
         )}
       </section>
-    </div>
+    </fieldset>
   );
 }

@@ -1,5 +1,6 @@
 import { useState } from 'react';
 import { api, ApiError } from './api-client.ts';
+import { useHydrated } from './use-hydrated.ts';
 
 interface Token { id: string; name: string; prefix: string; createdAt: string; lastUsedAt: string | null; revokedAt: string | null }
 
@@ -9,6 +10,7 @@ export default function TokenManager({ tokens: initial, appUrl }: { tokens: Toke
   const [name, setName] = useState('');
   const [fresh, setFresh] = useState<string | null>(null);
   const [error, setError] = useState<string | null>(null);
+  const hydrated = useHydrated();
 
   async function create(e: React.FormEvent) {
     e.preventDefault();
@@ -34,7 +36,7 @@ export default function TokenManager({ tokens: initial, appUrl }: { tokens: Toke
   }
 
   return (
-    <div className="space-y-4">
+    <fieldset disabled={!hydrated} className="space-y-4">
       <form onSubmit={create} className="flex flex-wrap items-end gap-3">
         <div className="min-w-[16rem] flex-1">
           <label className="label" htmlFor="token-name">Name (for example, the scanning station)</label>
@@ -65,6 +67,6 @@ export default function TokenManager({ tokens: initial, appUrl }: { tokens: Toke
           ))}
         </tbody>
       </table>
-    </div>
+    </fieldset>
   );
 }

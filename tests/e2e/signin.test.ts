@@ -61,7 +61,10 @@ describe('signing in and the shell', () => {
     await page.getByLabel('Your name').fill('Cousin Orla');
     await page.getByLabel(/Choose a password/).fill('a long enough password');
     await page.getByRole('button', { name: /Join the/ }).click();
-    await page.waitForURL(/\/batches/);
+    await page.waitForURL(/\/batches/).catch(async (err) => {
+      await snap(page, 'invite-accept-stuck');
+      throw new Error(`${err.message}\nstill at ${page.url()}; the page says: ${(await page.locator('main').innerText()).slice(0, 400)}`);
+    });
     await expect(page.locator('[data-user-email]').textContent()).resolves.toContain('Cousin Orla');
     await page.goto(`${BASE}/team`);
     await expect(page.locator('[data-owner-only]').isVisible()).resolves.toBe(true);

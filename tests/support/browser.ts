@@ -19,7 +19,8 @@ export async function launchBrowser(): Promise<BrowserContext> {
     args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'],
   });
   // The profile folder is the test's own: gone with the browser.
-  context.on('close', () => fs.rmSync(dir, { recursive: true, force: true }));
+  // Chromium may still be writing to it as it closes: retry, and never fail a test over it.
+  context.on('close', () => fs.rm(dir, { recursive: true, force: true, maxRetries: 10, retryDelay: 200 }, () => {}));
   return context;
 }
 
