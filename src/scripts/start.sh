@@ -11,6 +11,20 @@ ensure_debian_package libjemalloc2 /usr/lib/x86_64-linux-gnu/libjemalloc.so.2
 parent=$(cluster_parent "$root")
 export DRAWERLIGHT_PG_DIR="$parent/dev"
 export DRAWERLIGHT_PG_PORT="${DRAWERLIGHT_PG_PORT:-5544}"
+marker="$root/storage/.dev-cluster"
+case "$parent" in
+  "$root/storage/"*) ;;
+  *)
+    # The cluster lives outside storage/: when storage/ was emptied (git clean -xfd), the old
+    # database would point at files that are gone, so it starts afresh as well.
+    if [ -f "$DRAWERLIGHT_PG_DIR/PG_VERSION" ] && [ ! -f "$marker" ]; then
+      echo "drawerlight: storage/ was emptied since the last start: starting the development database afresh too" >&2
+      bash db/cluster.sh stop "$DRAWERLIGHT_PG_DIR"
+      rm -rf "$DRAWERLIGHT_PG_DIR"
+    fi
+    ;;
+esac
 bash db/cluster.sh ensure "$DRAWERLIGHT_PG_DIR" "$DRAWERLIGHT_PG_PORT" drawerlight >/dev/null
+echo "$DRAWERLIGHT_PG_DIR" >"$marker"
 export DATABASE_URL="${DATABASE_URL:-postgres://drawerlight@127.0.0.1:$DRAWERLIGHT_PG_PORT/drawerlight}"
 exec node --import tsx src/scripts/stack.ts
