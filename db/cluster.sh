@@ -7,7 +7,8 @@
 #   db/cluster.sh stop <data-dir>
 set -euo pipefail
 
-as_postgres() { runuser -u postgres -- "$@"; }
+# From / so the postgres user is never asked to enter a folder it cannot read (a checkout under /root).
+as_postgres() { (cd / && runuser -u postgres -- "$@"); }
 
 pg_bin() {
   local bin
