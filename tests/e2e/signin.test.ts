@@ -19,12 +19,21 @@ afterAll(async () => {
 describe('signing in and the shell', () => {
   it('signs the demo owner in and shows the shell with every section', async () => {
     const page = await browser.newPage();
+    const refused: string[] = [];
+    page.on('console', (m) => {
+      if (/Content Security Policy/i.test(m.text())) refused.push(m.text());
+    });
     await signInPage(page, owner.email, DEMO_PASSWORD);
     expect(new URL(page.url()).pathname).toBe('/batches');
     const nav = page.getByRole('navigation', { name: 'Main' });
     for (const label of ['Batches', 'Rescan list', 'Export', 'Team', 'Settings']) await expect(nav.getByRole('link', { name: label }).isVisible()).resolves.toBe(true);
     await expect(page.getByLabel('Archive').inputValue()).resolves.toBe('hartigan');
     await snap(page, 'shell-owner');
+    // The team page's island hydrates under the policy: its inline loader is allowed by hash.
+    await page.goto(`${BASE}/team`);
+    await page.getByRole('button', { name: 'Send invitation' }).waitFor();
+    await expect(page.getByRole('button', { name: 'Send invitation' }).isEnabled()).resolves.toBe(true);
+    expect(refused).toEqual([]);
     await page.getByRole('button', { name: 'Sign out' }).click();
     await page.waitForURL(/\/signin/);
     await page.goto(`${BASE}/team`);
