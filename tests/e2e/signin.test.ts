@@ -31,8 +31,8 @@ describe('signing in and the shell', () => {
     await snap(page, 'shell-owner');
     // The team page's island hydrates under the policy: its inline loader is allowed by hash.
     await page.goto(`${BASE}/team`);
-    await page.getByRole('button', { name: 'Send invitation' }).waitFor();
-    await expect(page.getByRole('button', { name: 'Send invitation' }).isEnabled()).resolves.toBe(true);
+    // Enabled only once hydrated; a refused loader would leave it disabled and this wait would fail.
+    await page.locator('button:has-text("Send invitation"):enabled').waitFor({ timeout: 20_000 });
     expect(refused).toEqual([]);
     await page.getByRole('button', { name: 'Sign out' }).click();
     await page.waitForURL(/\/signin/);
