@@ -18,9 +18,13 @@ export async function launchBrowser(): Promise<BrowserContext> {
     viewport: { width: 1280, height: 860 },
     args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'],
   });
-  // The profile folder is the test's own: gone with the browser.
-  // Chromium may still be writing to it as it closes: retry, and never fail a test over it.
-  context.on('close', () => fs.rm(dir, { recursive: true, force: true, maxRetries: 10, retryDelay: 200 }, () => {}));
+  // The profile folder is the test's own: removed once Chromium has closed (it may still be
+  // finishing its writes, hence the retries); never a reason to fail a test.
+  const close = context.close.bind(context);
+  context.close = async (...args: Parameters<BrowserContext['close']>) => {
+    await close(...args);
+    await fs.promises.rm(dir, { recursive: true, force: true, maxRetries: 10, retryDelay: 200 }).catch(() => undefined);
+  };
   return context;
 }
 
