@@ -14,7 +14,7 @@ import { Original, closeDb } from '../../db/index.ts';
 import { AGEING_MODELS, syntheticScan } from '../../src/lib/demo/synthetic.ts';
 import { asToken, makeArchive } from '../support/fixtures.ts';
 import type { Client } from '../support/http.ts';
-import { createBatch, sha256, upload } from '../integration/ingest/helpers.ts';
+import { createBatch, sha256, upload } from '../support/scans.ts';
 
 const UPLOADERS = 4;
 const PER_UPLOADER = Number(process.env.BENCH_LOAD_FILES ?? 50);

@@ -4,7 +4,7 @@ import { closeDb } from '../../db/index.ts';
 import { launchBrowser, signInPage, snap } from '../support/browser.ts';
 import { asToken, makeArchive, TEST_PASSWORD, type TestArchive } from '../support/fixtures.ts';
 import { BASE } from '../support/http.ts';
-import { createBatch, generatedScans } from '../integration/ingest/helpers.ts';
+import { createBatch, generatedScans } from '../support/scans.ts';
 
 let browser: BrowserContext;
 let a: TestArchive;

@@ -4,7 +4,7 @@ import os from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { AGEING_MODELS, syntheticScan } from '../../../src/lib/demo/synthetic.ts';
-import { createBatch, sha256, upload } from '../ingest/helpers.ts';
+import { createBatch, sha256, upload } from '../../support/scans.ts';
 import type { TestArchive } from '../../support/fixtures.ts';
 import { startIsolatedStack, type IsolatedStack } from '../../support/isolated-stack.ts';
 import { temporaryFiles } from './helpers.ts';

@@ -6,7 +6,7 @@ import fs from 'node:fs';
 import path from 'node:path';
 import type { Client, Reply } from '../../support/http.ts';
 import type { IsolatedStack } from '../../support/isolated-stack.ts';
-import { sha256, upload } from '../ingest/helpers.ts';
+import { sha256, upload } from '../../support/scans.ts';
 
 export interface UploadRecord {
   name: string;

@@ -1,5 +1,5 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { generatedScans, createBatch, waitSettled } from '../ingest/helpers.ts';
+import { generatedScans, createBatch, waitSettled } from '../../support/scans.ts';
 import type { TestArchive } from '../../support/fixtures.ts';
 import { startIsolatedStack, type IsolatedStack } from '../../support/isolated-stack.ts';
 import { originalsOnDisk, temporaryFiles, until, uploadRetrying } from './helpers.ts';

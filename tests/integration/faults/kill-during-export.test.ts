@@ -3,7 +3,7 @@ import fs from 'node:fs';
 import path from 'node:path';
 import { promisify } from 'node:util';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { createBatch, generatedScans, uploadAll, waitSettled } from '../ingest/helpers.ts';
+import { createBatch, generatedScans, uploadAll, waitSettled } from '../../support/scans.ts';
 import { decide, waitExport } from '../export/helpers.ts';
 import type { TestArchive } from '../../support/fixtures.ts';
 import { startIsolatedStack, type IsolatedStack } from '../../support/isolated-stack.ts';

@@ -1,5 +1,5 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { createBatch, generatedScans, uploadAll, waitSettled } from '../ingest/helpers.ts';
+import { createBatch, generatedScans, uploadAll, waitSettled } from '../../support/scans.ts';
 import type { TestArchive } from '../../support/fixtures.ts';
 import { startIsolatedStack, type IsolatedStack } from '../../support/isolated-stack.ts';
 import { until } from './helpers.ts';

@@ -5,7 +5,7 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { Batch, Item, Original, closeDb } from '../../../db/index.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
-import { generatedScans, sha256, waitSettled } from './helpers.ts';
+import { generatedScans, sha256, waitSettled } from '../../support/scans.ts';
 
 let a: TestArchive;
 let dir: string;

@@ -6,7 +6,7 @@ import { listOutbox } from '../../../src/lib/server/outbox.ts';
 import { storage } from '../../../src/lib/server/storage.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
 import { Client } from '../../support/http.ts';
-import { createBatch, generatedScans, sha256, upload, uploadAll, waitSettled } from './helpers.ts';
+import { createBatch, generatedScans, sha256, upload, uploadAll, waitSettled } from '../../support/scans.ts';
 
 let a: TestArchive;
 let other: TestArchive;

@@ -4,7 +4,7 @@ import { Correction, Item, Original, closeDb } from '../../../db/index.ts';
 import { storage } from '../../../src/lib/server/storage.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
 import { recordedWorkers, spawnWorker, stopWorker } from '../../support/processes.ts';
-import { createBatch, generatedScans, sha256, uploadAll, waitSettled } from './helpers.ts';
+import { createBatch, generatedScans, sha256, uploadAll, waitSettled } from '../../support/scans.ts';
 
 let a: TestArchive;
 beforeAll(async () => {

@@ -7,7 +7,7 @@ import { roleAtLeast, type Role } from '../../../src/lib/auth/roles.ts';
 import { createApiToken, revokeApiToken } from '../../../src/lib/server/api-tokens.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
 import { BASE, Client } from '../../support/http.ts';
-import { createBatch, generatedScans, upload, waitSettled } from '../ingest/helpers.ts';
+import { createBatch, generatedScans, upload, waitSettled } from '../../support/scans.ts';
 import { ROUTE_RULES, type ResourceName } from './route-rules.ts';
 
 const API_DIR = path.resolve('src/pages/api');

@@ -8,7 +8,7 @@ import { Batch, closeDb, Item, Original } from '../../../db/index.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
 import { AWKWARD_NAMES, badCorpus, type CorpusFile } from '../../support/bad-corpus.ts';
 import { Client } from '../../support/http.ts';
-import { createBatch, generatedScans, upload, waitSettled } from '../ingest/helpers.ts';
+import { createBatch, generatedScans, upload, waitSettled } from '../../support/scans.ts';
 
 let a: TestArchive;
 let corpus: CorpusFile[];

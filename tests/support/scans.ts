@@ -1,10 +1,11 @@
 /**
- * Shared steps of the ingest tests: generated scans (invented scenes from src/lib/demo/synthetic.ts,
+ * Shared steps of every test that needs scans in the app: generated scans (invented scenes from
+ * src/lib/demo/synthetic.ts,
  * aged with the engine's density model), uploads through the real API, waiting on the real worker.
  */
 import { createHash } from 'node:crypto';
-import { AGEING_MODELS, syntheticScan } from '../../../src/lib/demo/synthetic.ts';
-import type { Client } from '../../support/http.ts';
+import { AGEING_MODELS, syntheticScan } from '../../src/lib/demo/synthetic.ts';
+import type { Client } from './http.ts';
 
 export const sha256 = (b: Buffer | Uint8Array) => createHash('sha256').update(b).digest('hex');
 
