@@ -9,11 +9,16 @@ export interface StackProcess {
   stop(signal?: NodeJS.Signals): Promise<void>;
 }
 
-const JEMALLOC = '/usr/lib/x86_64-linux-gnu/libjemalloc.so.2';
+export const JEMALLOC = '/usr/lib/x86_64-linux-gnu/libjemalloc.so.2';
+/**
+ * jemalloc set to keep a finished scan's memory for the next one (one arena, no decay): see
+ * src/scripts/engine-env.sh, which sets the same for `npm run correct` and `npm run worker`.
+ */
+export const JEMALLOC_CONF = 'narenas:1,dirty_decay_ms:-1,muzzy_decay_ms:-1';
 
-/** Environment for the image worker: jemalloc (when installed) lets sharp use two threads and keeps RSS flat. */
+/** Environment for the image worker: jemalloc (when installed), set as src/scripts/engine-env.sh sets it. */
 export function workerEnv(env: NodeJS.ProcessEnv): NodeJS.ProcessEnv {
-  return fs.existsSync(JEMALLOC) ? { ...env, LD_PRELOAD: JEMALLOC } : env;
+  return fs.existsSync(JEMALLOC) ? { ...env, LD_PRELOAD: JEMALLOC, MALLOC_CONF: JEMALLOC_CONF } : env;
 }
 
 /** Starts `cmd args` with `env`, writing stdout and stderr to `logFile` (or inheriting them). */

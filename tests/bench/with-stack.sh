@@ -48,12 +48,8 @@ pids+=($!)
 HOST=127.0.0.1 PORT="${APP_URL##*:}" node "$DRAWERLIGHT_OUT_DIR/server/entry.mjs" >"$run/logs/server.log" 2>&1 &
 server_pid=$!
 pids+=($server_pid)
-jemalloc=/usr/lib/x86_64-linux-gnu/libjemalloc.so.2
-if [ -e "$jemalloc" ]; then
-  LD_PRELOAD="$jemalloc" node --import tsx jobs/worker.ts >"$run/logs/worker.log" 2>&1 &
-else
-  node --import tsx jobs/worker.ts >"$run/logs/worker.log" 2>&1 &
-fi
+# as `npm run worker` runs it (exec: the pid is the worker's own)
+sh src/scripts/engine-env.sh node --import tsx jobs/worker.ts >"$run/logs/worker.log" 2>&1 &
 worker_pid=$!
 pids+=($worker_pid)
 wait_port "$SMTP_PORT" 'the mail fake'

@@ -133,20 +133,38 @@ export function samplePixels(full: ReducedPixels, longSide = 1280): ReducedPixel
   const h = Math.max(1, Math.floor(full.height / f));
   const ch = full.channels;
   const out = new Uint8Array(w * h * 3);
-  const src = full.data;
-  const shift = full.depth === 16 ? 8 : 0;
   const half = f >> 1;
+  if (full.data instanceof Uint8Array) sample8(full.data, out, full.width, w, h, f, half, ch);
+  else sampleWide(full.data, out, full.width, w, h, f, half, ch, full.depth === 16 ? 8 : 0);
+  return { data: out, width: w, height: h, channels: 3, depth: 8 };
+}
+
+// One loop per array type, so that V8 keeps each monomorphic (a shared one runs at a third of the speed).
+function sample8(src: Uint8Array, out: Uint8Array, width: number, w: number, h: number, f: number, half: number, ch: number): void {
   let o = 0;
+  const di = f * ch;
   for (let y = 0; y < h; y++) {
-    let i = ((y * f + half) * full.width + half) * ch;
-    const di = f * ch;
+    let i = ((y * f + half) * width + half) * ch;
+    for (let x = 0; x < w; x++, i += di) {
+      out[o] = src[i];
+      out[o + 1] = src[i + 1];
+      out[o + 2] = src[i + 2];
+      o += 3;
+    }
+  }
+}
+
+function sampleWide(src: ArrayLike<number>, out: Uint8Array, width: number, w: number, h: number, f: number, half: number, ch: number, shift: number): void {
+  let o = 0;
+  const di = f * ch;
+  for (let y = 0; y < h; y++) {
+    let i = ((y * f + half) * width + half) * ch;
     for (let x = 0; x < w; x++, i += di) {
       out[o++] = src[i] >> shift;
       out[o++] = src[i + 1] >> shift;
       out[o++] = src[i + 2] >> shift;
     }
   }
-  return { data: out, width: w, height: h, channels: 3, depth: 8 };
 }
 
 /** 8-bit view of the pixels, whatever their depth. */

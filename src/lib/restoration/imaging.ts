@@ -18,6 +18,9 @@ export const DEFAULT_LIMITS = { maxPixels: 150_000_000, maxBytes: 500 * 1024 * 1
 
 export type ScanFormat = 'jpeg' | 'png' | 'tiff';
 
+/** Long side of the reduced copy the analysis measures (the issue asks for about 1 to 1.5 k pixels). */
+export const ANALYSIS_SIDE = 1280;
+
 /** What the header of a scan says, read without decoding the pixels. */
 export interface ScanProbe {
   /** Raw EXIF block, when the file has one (not serialised into reports). */
@@ -160,7 +163,7 @@ function decoder(input: string | Buffer, probe: ScanProbe, keep16: boolean): sha
  * Decodes a reduced copy for analysis (shrink-on-load where the format allows), always 8-bit RGB.
  * @throws {ScanRejected}
  */
-export async function loadReduced(input: string | Buffer, longSide = 1280, limits?: Partial<ScanLimits>): Promise<ReducedPixels> {
+export async function loadReduced(input: string | Buffer, longSide = ANALYSIS_SIDE, limits?: Partial<ScanLimits>): Promise<ReducedPixels> {
   const probe = await probeScan(input, limits);
   try {
     const { data, info } = await decoder(input, probe, false)
@@ -194,19 +197,18 @@ export async function loadFull(input: string | Buffer, limits?: Partial<ScanLimi
 }
 
 /**
- * The analysis copy from pixels already decoded: a libvips resize of the raw buffer, which runs
- * off the JavaScript thread and costs less than a second, shrink-on-load decode of the file
- * (tests/bench/engine.ts measures both).
+ * The small copy of pixels already decoded: one libvips reduction (linear filter, which averages
+ * the pixels it drops) to `longSide`, always 8-bit RGB, always a buffer of its own (so the full
+ * pixels may be corrected in place afterwards). It is the analysis copy and the source of every
+ * preview and thumbnail: the full-resolution pixels are read once for it and never again.
+ * tests/bench/engine.ts compares it with a shrink-on-load decode and a point sample.
  */
-export async function deriveReduced(full: ReducedPixels, longSide = 1280): Promise<ReducedPixels> {
+export async function deriveReduced(full: ReducedPixels, longSide = ANALYSIS_SIDE): Promise<ReducedPixels> {
   // libvips takes raw 16-bit input as plain numbers, not as rgb16: narrow to 8 bits first
   const src = narrowTo8(full);
-  const long = Math.max(src.width, src.height);
-  if (long <= longSide) return src;
-  // a whole-number factor makes it a plain box shrink, the cheapest resize libvips has
-  const factor = Math.ceil(long / longSide);
+  if (Math.max(src.width, src.height) <= longSide) return { ...src, data: src === full ? src.data.slice() : src.data };
   const { data, info } = await rawImage(src)
-    .resize({ width: Math.max(1, Math.floor(src.width / factor)), height: Math.max(1, Math.floor(src.height / factor)), fit: 'fill' })
+    .resize({ width: longSide, height: longSide, fit: 'inside', kernel: 'linear' })
     .toColourspace('srgb')
     .raw({ depth: 'uchar' })
     .toBuffer({ resolveWithObject: true });
@@ -215,7 +217,7 @@ export async function deriveReduced(full: ReducedPixels, longSide = 1280): Promi
 
 /** Decodes a reduced copy and measures the print. @throws {ScanRejected} */
 export async function analyseScan(input: string | Buffer, limits?: Partial<ScanLimits>): Promise<Analysis> {
-  return analysePixels(await loadReduced(input, 1280, limits));
+  return analysePixels(await loadReduced(input, ANALYSIS_SIDE, limits));
 }
 
 /** EXIF tags worth carrying from a scan to its render: dates, device, author (EXIF 2.32 tag numbers). */
@@ -398,7 +400,8 @@ function narrowTo8(p: ReducedPixels): ReducedPixels {
  * Standard Huffman tables: optimised ones take about twice the encode time for a few percent.
  */
 function smallJpeg(p: ReducedPixels, side: number): Promise<Buffer> {
-  return rawImage(p).resize({ width: side, height: side, fit: 'inside', withoutEnlargement: true }).toColourspace('srgb').jpeg({ quality: 82, optimiseCoding: false }).toBuffer();
+  const img = Math.max(p.width, p.height) > side ? rawImage(p).resize({ width: side, height: side, fit: 'inside', kernel: 'linear' }) : rawImage(p);
+  return img.toColourspace('srgb').jpeg({ quality: 82, optimiseCoding: false }).toBuffer();
 }
 
 /** Long side of the largest small copy asked for, or 0 for none. */
@@ -406,26 +409,8 @@ function smallSide(sizes: RenderOptions['previews']): number {
   return Math.max(sizes?.preview ?? 0, sizes?.thumbnail ?? 0);
 }
 
-/**
- * One libvips reduction of the decoded pixels to the largest small copy asked for, at the same
- * depth: every preview and thumbnail, original and corrected, is made from it, never from the
- * full-resolution pixels again. Always a buffer of its own, so the full pixels can then be
- * corrected in place.
- */
-async function reduceForPreviews(src: ReducedPixels, side: number): Promise<ReducedPixels> {
-  if (Math.max(src.width, src.height) <= side) return { ...src, data: src.data.slice() };
-  const sixteen = src.depth === 16;
-  const { data, info } = await rawImage(src)
-    .resize({ width: side, height: side, fit: 'inside' })
-    .raw({ depth: sixteen ? 'ushort' : 'uchar' })
-    .toBuffer({ resolveWithObject: true });
-  const view = sixteen ? new Uint16Array(data.buffer.slice(data.byteOffset, data.byteOffset + data.length)) : new Uint8Array(data.buffer, data.byteOffset, data.length);
-  return { data: view, width: info.width, height: info.height, channels: info.channels, depth: src.depth };
-}
-
 async function previewSet(small: ReducedPixels, sizes: RenderOptions['previews']): Promise<PreviewSet> {
-  const p = narrowTo8(small);
-  const [preview, thumbnail] = await Promise.all([sizes?.preview ? smallJpeg(p, sizes.preview) : undefined, sizes?.thumbnail ? smallJpeg(p, sizes.thumbnail) : undefined]);
+  const [preview, thumbnail] = await Promise.all([sizes?.preview ? smallJpeg(small, sizes.preview) : undefined, sizes?.thumbnail ? smallJpeg(small, sizes.thumbnail) : undefined]);
   const out: PreviewSet = {};
   if (preview) out.preview = preview;
   if (thumbnail) out.thumbnail = thumbnail;
@@ -433,11 +418,11 @@ async function previewSet(small: ReducedPixels, sizes: RenderOptions['previews']
 }
 
 /**
- * Renders from decoded pixels. `small`, when previews are asked for, is the reduction made by
- * {@link reduceForPreviews} (the caller may start it early, so that libvips makes it while the
- * analysis runs); it is made here otherwise.
+ * Renders from decoded pixels. `small`, when previews are asked for, is the 8-bit small copy
+ * made by {@link deriveReduced} (the analysis copy, when the caller measured the print first);
+ * it is made here otherwise. Every preview and thumbnail comes from it.
  */
-async function renderFromFull(full: FullPixels, correction: Correction, options: RenderOptions, small?: Promise<ReducedPixels>): Promise<RenderResult> {
+async function renderFromFull(full: FullPixels, correction: Correction, options: RenderOptions, small?: ReducedPixels): Promise<RenderResult> {
   const c = correctionSchema.parse(correction);
   let src: ReducedPixels = full;
   if (options.maxSide && Math.max(full.width, full.height) > options.maxSide) {
@@ -450,7 +435,7 @@ async function renderFromFull(full: FullPixels, correction: Correction, options:
   }
   const side = smallSide(options.previews);
   // the small copy of the original must be taken before the full pixels are corrected in place
-  const reduced = side > 0 ? await (small ?? reduceForPreviews(src, side)) : undefined;
+  const reduced = side > 0 ? (small ?? (await deriveReduced(src, side))) : undefined;
   // an unfaded print on 8-bit pixels needs no per-pixel pass at all
   const untouched = isIdentity(c) && src.depth === 8;
   const luts = untouched ? undefined : buildChannelLuts(c, src.depth, 8);
@@ -463,12 +448,13 @@ async function renderFromFull(full: FullPixels, correction: Correction, options:
   const encoding = Promise.all([out.jpeg({ quality: options.quality ?? 92, optimiseCoding: options.optimiseCoding ?? false }).toBuffer(), srgbIcc()]);
   let previews: RenderResult['previews'];
   if (reduced) {
-    // the corrected small copy is the same tables applied to the small original, as the review
-    // page's live preview does: a few milliseconds, where a second reduction of the full
-    // corrected pixels costs as much as the first
-    const correctedSmall: ReducedPixels = luts ? { ...reduced, data: applyCorrection(reduced.data, reduced.channels, luts) as Uint8Array, depth: 8 } : reduced;
+    // the corrected small copy is the same correction applied to the small original, as the
+    // review page's live preview does: a millisecond, where a second reduction of the full
+    // corrected pixels costs as much as the first. The small copy is always 8-bit.
+    const smallLuts = isIdentity(c) ? undefined : luts && src.depth === 8 ? luts : buildChannelLuts(c, 8, 8);
+    const correctedSmall: ReducedPixels = smallLuts ? { ...reduced, data: applyCorrection(reduced.data, reduced.channels, smallLuts) as Uint8Array, depth: 8 } : reduced;
     const wantOriginal = !options.previews?.correctedOnly;
-    const [original, correctedSet] = await Promise.all([wantOriginal || !luts ? previewSet(reduced, options.previews) : {}, luts ? previewSet(correctedSmall, options.previews) : undefined]);
+    const [original, correctedSet] = await Promise.all([wantOriginal || !smallLuts ? previewSet(reduced, options.previews) : {}, smallLuts ? previewSet(correctedSmall, options.previews) : undefined]);
     previews = { original: wantOriginal ? original : {}, corrected: correctedSet ?? original };
   }
   const [encoded, icc] = await encoding;
@@ -504,7 +490,7 @@ export interface AnalyseAndRenderOptions extends RenderOptions {
   strength?: number;
   /** Use this correction instead of the proposed one (e.g. pooled across a batch). */
   correction?: Correction;
-  /** Long side of the analysis copy, default 1280. */
+  /** Long side of the analysis copy, default {@link ANALYSIS_SIDE}. */
   analysisSide?: number;
   limits?: Partial<ScanLimits>;
 }
@@ -517,20 +503,24 @@ export interface AnalyseAndRenderResult extends RenderResult {
 }
 
 /**
- * Decodes a scan once, measures it on a point-sampled copy of the decoded pixels, renders the correction and,
- * when asked, the previews: the path the command line and the job worker take.
+ * Decodes a scan once, measures it on the small copy of the decoded pixels, renders the
+ * correction and, when asked, the previews from that same small copy: the path the command line
+ * and the job worker take. The full-resolution pixels are decoded once, read once for the small
+ * copy, corrected in place and encoded.
  * @throws {ScanRejected}
  */
 export async function analyseAndRender(input: string | Buffer, options: AnalyseAndRenderOptions = {}): Promise<AnalyseAndRenderResult> {
   const file = await asBuffer(input);
   const probe = await probeScan(file, options.limits);
   const full = await loadFull(file, options.limits, probe);
-  // libvips reduces the pixels for the previews on its own thread while the analysis runs here
-  const side = options.maxSide ? 0 : smallSide(options.previews);
-  const small = side > 0 ? reduceForPreviews(full, side) : undefined;
-  // a rejection is awaited in renderFromFull; until then it must not count as unhandled
-  small?.catch(() => undefined);
-  const analysis = analysePixels(samplePixels(full, options.analysisSide ?? 1280));
+  const analysisSide = options.analysisSide ?? ANALYSIS_SIDE;
+  const previewSide = options.maxSide ? 0 : smallSide(options.previews);
+  // With previews, one filtered small copy serves the analysis and the previews. Without, the
+  // analysis measures a point sample of the decode, which costs a third as much; its histograms
+  // and medians do not need the averaging a preview shown to people does.
+  const small = previewSide > 0 ? await deriveReduced(full, Math.max(analysisSide, previewSide)) : undefined;
+  const measured = small && Math.max(small.width, small.height) <= analysisSide ? small : samplePixels(small ?? full, analysisSide);
+  const analysis = analysePixels(measured);
   const base = options.correction ?? analysis.proposed;
   const correction = { ...base, strength: options.strength ?? base.strength };
   const render = await renderFromFull(full, correction, options, small);

@@ -4,6 +4,7 @@
  * knows the same queue behaviour (retries with backoff, the dead-letter queue, expiry).
  */
 import type PgBoss from 'pg-boss';
+import { ANALYSIS_SIDE } from '../restoration/imaging.ts';
 import { DEAD_LETTER_QUEUE, declareQueue, queue, type QueueSpec } from './queue.ts';
 
 /** Analyse one item: decode once, measure, propose, render the corrected JPEG and the previews. */
@@ -99,6 +100,9 @@ export const derivedKeys = {
   renderThumbnail: (itemId: string, version: number) => `thumbnails/${itemId}/v${version}.jpg`,
 };
 
-/** Long sides of the small copies made from the same decode as the render. */
-export const PREVIEW_SIDE = 1600;
+/**
+ * Long sides of the small copies made from the same decode as the render. The preview is the
+ * engine's analysis copy itself, encoded: one reduction of the full pixels serves both.
+ */
+export const PREVIEW_SIDE = ANALYSIS_SIDE;
 export const THUMBNAIL_SIDE = 360;

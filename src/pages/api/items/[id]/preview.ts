@@ -6,7 +6,7 @@ import { apiRoute } from '../../../../lib/server/http.ts';
 import { derivedKeys } from '../../../../lib/server/processing.ts';
 
 /**
- * A screen-sized JPEG (1600 px on the long side) of the item: `?of=corrected` (the default: the newest rendered
+ * A screen-sized JPEG (1280 px on the long side: the engine's analysis copy) of the item: `?of=corrected` (the default: the newest rendered
  * correction) or `?of=original` (the scan as it is, for correcting in the browser).
  */
 export const GET = apiRoute(async ({ locals, params, request, url }) => {
