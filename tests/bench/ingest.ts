@@ -4,8 +4,9 @@
  * 100 generated 3600x2400 scans (6x4 in at 600 dpi; invented scenes, each aged differently so every
  * file has other bytes) are uploaded through the API, four at a time, and timed until every item
  * is ready (analysis, proposed correction, full-resolution corrected JPEG and previews). The floor,
- * measured in the same run: 100 x a bare sharp decode -> JPEG q92 encode of one of them, on one
- * core, divided by the 2 cores. The web server's and the worker's resident memory is sampled from
+ * measured in the same run (tests/bench/floor.ts): 100 x a bare sharp decode -> JPEG q92 encode of
+ * these scans on one core (pinned with taskset), divided by the 2 cores; beside it, what 100 bare
+ * decode -> encodes two at a time really take on this machine. The web server's and the worker's resident memory is sampled from
  * /proc throughout, at each quarter of the batch, to show it stays flat as the batch grows.
  * Ends with `ingest_ratio`, `server_peak_rss_mb` and `worker_peak_rss_mb`.
  */
@@ -17,6 +18,10 @@ import sharp from 'sharp';
 import { closeDb } from '../../db/index.ts';
 import { AGEING_MODELS, agePixels, encodeScene, generateScene, type Ageing } from '../../src/lib/demo/synthetic.ts';
 import { analyseAndRender } from '../../src/lib/restoration/imaging.ts';
+import { PREVIEW_SIDE, THUMBNAIL_SIDE } from '../../src/lib/server/processing.ts';
+import { describeFloor, measureFloor } from './floor.ts';
+import { Agent, request } from 'node:http';
+import { readdirSync } from 'node:fs';
 import { makeArchive } from '../support/fixtures.ts';
 
 const COUNT = Number(process.env.BENCH_COUNT ?? 100);
@@ -26,6 +31,7 @@ const CORES = 2;
 const UPLOADS_AT_ONCE = 4;
 const FLOOR_SAMPLES = 12;
 const BASE = process.env.APP_URL!;
+const keepAlive = new Agent({ keepAlive: true, maxSockets: 8 });
 const serverPid = Number(process.env.DRAWERLIGHT_SERVER_PID);
 const workerPid = Number(process.env.DRAWERLIGHT_WORKER_PID);
 
@@ -35,6 +41,34 @@ function memory(pid: number): { rss: number; hwm: number } {
   const text = readFileSync(`/proc/${pid}/status`, 'utf8');
   const kb = (name: string) => Number(new RegExp(`^${name}:\\s+(\\d+) kB`, 'm').exec(text)?.[1] ?? 0);
   return { rss: kb('VmRSS') / 1024, hwm: kb('VmHWM') / 1024 };
+}
+
+/** CPU seconds of every PostgreSQL process now running (backends that exited take theirs with them). */
+function postgresCpuSeconds(): number {
+  let total = 0;
+  for (const pid of readdirSync('/proc').filter((d) => /^\d+$/.test(d))) {
+    try {
+      if (readFileSync(`/proc/${pid}/comm`, 'utf8').trim() === 'postgres') total += cpuSeconds(Number(pid));
+    } catch {
+      // gone meanwhile
+    }
+  }
+  return total;
+}
+
+/** CPU seconds of each thread of a process, summed by the thread's name (main thread first). */
+function cpuByThread(pid: number): Map<string, number> {
+  const out = new Map<string, number>();
+  for (const tid of readdirSync(`/proc/${pid}/task`)) {
+    try {
+      const name = Number(tid) === pid ? 'main thread' : readFileSync(`/proc/${pid}/task/${tid}/comm`, 'utf8').trim();
+      const fields = readFileSync(`/proc/${pid}/task/${tid}/stat`, 'utf8').replace(/^.*\) /, '').split(' ');
+      out.set(name, (out.get(name) ?? 0) + (Number(fields[11]) + Number(fields[12])) / 100);
+    } catch {
+      // thread gone
+    }
+  }
+  return out;
 }
 
 /** User + system CPU seconds a process has used so far (/proc/<pid>/stat, clock ticks of 1/100 s). */
@@ -66,29 +100,18 @@ async function generate(dir: string): Promise<string[]> {
   return files;
 }
 
-/** One core's bare decode -> encode of one scan (sharp's defaults), wall and CPU ms (mean of FLOOR_SAMPLES after a warm-up). */
-async function bareMs(file: string): Promise<{ wall: number; cpu: number }> {
-  sharp.concurrency(1);
-  const bytes = readFileSync(file);
-  await sharp(bytes).jpeg({ quality: 92 }).toBuffer();
-  const c0 = process.cpuUsage();
-  const t0 = performance.now();
-  for (let i = 0; i < FLOOR_SAMPLES; i++) await sharp(bytes).jpeg({ quality: 92 }).toBuffer();
-  const c = process.cpuUsage(c0);
-  return { wall: (performance.now() - t0) / FLOOR_SAMPLES, cpu: (c.user + c.system) / 1000 / FLOOR_SAMPLES };
-}
-
 /**
- * The engine alone, as the worker calls it (one decode: analysis, render, 1600 px previews), two
+ * The engine alone, as the worker calls it (one decode: analysis, render, previews, thumbnails), two
  * scans at a time, in ms per scan: where the pipeline's time goes, apart from upload, storage and queue.
  */
 async function engineMs(files: string[]): Promise<{ wall: number; cpu: number }> {
   sharp.concurrency(0);
   const bytes = files.slice(0, FLOOR_SAMPLES).map((f) => readFileSync(f));
-  await analyseAndRender(bytes[0], { previews: { preview: 1600 } });
+  const previews = { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE };
+  await analyseAndRender(bytes[0], { previews });
   const c0 = process.cpuUsage();
   const t0 = performance.now();
-  for (let i = 0; i + 1 < bytes.length; i += 2) await Promise.all([analyseAndRender(bytes[i], { previews: { preview: 1600 } }), analyseAndRender(bytes[i + 1], { previews: { preview: 1600 } })]);
+  for (let i = 0; i + 1 < bytes.length; i += 2) await Promise.all([analyseAndRender(bytes[i], { previews }), analyseAndRender(bytes[i + 1], { previews })]);
   const c = process.cpuUsage(c0);
   const n = bytes.length - (bytes.length % 2);
   return { wall: (performance.now() - t0) / n, cpu: (c.user + c.system) / 1000 / n };
@@ -103,25 +126,42 @@ async function api(token: string, method: string, path: string, body?: unknown) 
   return { status: res.status, body: (await res.json()) as any };
 }
 
-async function uploadFile(token: string, batchId: string, file: string): Promise<number> {
-  const res = await fetch(`${BASE}/api/batches/${batchId}/files`, {
-    method: 'POST',
-    headers: { authorization: `Bearer ${token}`, 'content-type': 'application/octet-stream', 'content-length': String(statSync(file).size), 'x-file-name': encodeURIComponent(file.split('/').pop()!) },
-    body: Readable.toWeb(createReadStream(file)) as unknown as BodyInit,
-    duplex: 'half',
-  } as RequestInit);
-  await res.arrayBuffer();
-  return res.status;
+/**
+ * Streams one file to the upload endpoint with node:http (the client stands in for a browser on
+ * another computer: fetch with a web stream cost this process about 12 ms of CPU per scan on
+ * the same two cores as the server and worker, a plain request about a third of that).
+ */
+function uploadFile(token: string, batchId: string, file: string): Promise<number> {
+  const url = new URL(`${BASE}/api/batches/${batchId}/files`);
+  return new Promise((resolve, reject) => {
+    const req = request(
+      url,
+      {
+        method: 'POST',
+        agent: keepAlive,
+        headers: { authorization: `Bearer ${token}`, 'content-type': 'application/octet-stream', 'content-length': String(statSync(file).size), 'x-file-name': encodeURIComponent(file.split('/').pop()!) },
+      },
+      (res) => {
+        res.resume();
+        res.on('end', () => resolve(res.statusCode ?? 0));
+        res.on('error', reject);
+      },
+    );
+    req.on('error', reject);
+    createReadStream(file).pipe(req);
+  });
 }
 
 const work = mkdtempSync(join(tmpdir(), 'drawerlight-bench-ingest-'));
 try {
   const files = await generate(work);
   console.log(`load average at start: ${loadavg().map((x) => x.toFixed(2)).join(' ')}`);
-  const bare = await bareMs(files[0]);
-  const floorMs = bare.wall;
-  const floorS = (COUNT * floorMs) / 1000 / CORES;
-  console.log(`bare sharp decode -> JPEG q92 (sharp's defaults), one core: ${floorMs.toFixed(1)} ms/scan wall, ${bare.cpu.toFixed(1)} ms/scan CPU; floor for ${COUNT} on ${CORES} cores: ${floorS.toFixed(2)} s`);
+  const floor = await measureFloor(files.slice(0, FLOOR_SAMPLES), 2);
+  for (const line of describeFloor(floor)) console.log(line);
+  const floorS = (COUNT * floor.singleCore) / 1000 / CORES;
+  const twoLanesS = (COUNT * floor.twoLanes) / 1000;
+  console.log(`floor for ${COUNT} scans: ${COUNT} x ${floor.singleCore.toFixed(1)} ms / ${CORES} cores = ${floorS.toFixed(2)} s; ${COUNT} bare decode -> encodes two at a time take ${twoLanesS.toFixed(2)} s here`);
+  const bare = { wall: floor.singleCore, cpu: floor.oneLibvipsThreadCpu };
 
   const engine = await engineMs(files);
   console.log(`engine alone (analyse + render + previews), two at a time: ${engine.wall.toFixed(1)} ms/scan wall, ${engine.cpu.toFixed(1)} ms/scan CPU; engine_only_ratio: ${((engine.wall * COUNT) / 1000 / floorS).toFixed(2)}; engine_cpu_ratio_to_bare: ${(engine.cpu / bare.cpu).toFixed(2)}`);
@@ -132,7 +172,8 @@ try {
   if (created.status !== 201) throw new Error(`could not create the batch: ${JSON.stringify(created.body)}`);
   const batchId = created.body.id as string;
 
-  const cpuBefore = { server: cpuSeconds(serverPid), worker: cpuSeconds(workerPid), bench: process.cpuUsage() };
+  const threadsBefore = cpuByThread(workerPid);
+  const cpuBefore = { server: cpuSeconds(serverPid), worker: cpuSeconds(workerPid), postgres: postgresCpuSeconds(), bench: process.cpuUsage() };
   const before = { server: memory(serverPid), worker: memory(workerPid) };
   console.log(`before: server ${before.server.rss.toFixed(0)} MB, worker ${before.worker.rss.toFixed(0)} MB resident`);
   const peak = { server: 0, worker: 0 };
@@ -175,7 +216,7 @@ try {
   }
   const totalS = (performance.now() - t0) / 1000;
   const benchCpu = process.cpuUsage(cpuBefore.bench);
-  const cpuUsed = { server: cpuSeconds(serverPid) - cpuBefore.server, worker: cpuSeconds(workerPid) - cpuBefore.worker, bench: (benchCpu.user + benchCpu.system) / 1e6 };
+  const cpuUsed = { server: cpuSeconds(serverPid) - cpuBefore.server, worker: cpuSeconds(workerPid) - cpuBefore.worker, postgres: postgresCpuSeconds() - cpuBefore.postgres, bench: (benchCpu.user + benchCpu.system) / 1e6 };
   await uploads;
   clearInterval(sampler);
   const after = { server: memory(serverPid), worker: memory(workerPid) };
@@ -187,9 +228,14 @@ try {
   console.log(`items: ${counts.ready} ready, ${counts.failed} failed`);
   console.log(`ingest of ${COUNT} scans until all ready: ${totalS.toFixed(2)} s (${((totalS * 1000) / COUNT).toFixed(0)} ms/scan)`);
   const per = (s: number) => ((s * 1000) / COUNT).toFixed(1);
-  console.log(`CPU per scan: worker ${per(cpuUsed.worker)} ms, web server ${per(cpuUsed.server)} ms, this uploading client ${per(cpuUsed.bench)} ms (PostgreSQL not counted); worker_cpu_ratio_to_bare: ${((cpuUsed.worker * 1000) / COUNT / bare.cpu).toFixed(2)}`);
+  console.log(`CPU per scan: worker ${per(cpuUsed.worker)} ms, web server ${per(cpuUsed.server)} ms, this uploading client ${per(cpuUsed.bench)} ms, PostgreSQL ${per(cpuUsed.postgres)} ms (its processes still running); worker_cpu_ratio_to_bare: ${((cpuUsed.worker * 1000) / COUNT / bare.cpu).toFixed(2)}`);
+  const threadsAfter = cpuByThread(workerPid);
+  const byThread = [...threadsAfter.entries()].map(([name, s]) => [name, s - (threadsBefore.get(name) ?? 0)] as const).filter(([, s]) => s > 0.005);
+  console.log(`worker CPU per scan by thread: ${byThread.map(([name, s]) => `${name} ${((s * 1000) / COUNT).toFixed(1)} ms`).join(', ')}`);
   console.log(`load average at end: ${loadavg().map((x) => x.toFixed(2)).join(' ')}`);
-  console.log('ingest_ratio is the wall time until all are ready against the bare decode -> encode with sharp\'s defaults, times the count, over 2 cores');
+  console.log(`ingest_ratio_to_bare_two_lanes: ${(totalS / twoLanesS).toFixed(2)} (against ${COUNT} bare decode -> encodes run two at a time)`);
+  console.log(`ingest_ratio_to_bare_one_libvips_thread: ${(totalS / ((COUNT * floor.oneLibvipsThread) / 1000 / CORES)).toFixed(2)} (the floor as earlier runs took it: unpinned, whose writer uses a second core, over 2 cores)`);
+  console.log('ingest_ratio is the wall time until all are ready against the bare decode -> encode (q92, sharp\'s defaults) on one core, times the count, over 2 cores');
   console.log(`ingest_ratio: ${(totalS / floorS).toFixed(2)}`);
   console.log(`server_peak_rss_mb: ${peak.server.toFixed(0)}`);
   console.log(`worker_peak_rss_mb: ${peak.worker.toFixed(0)}`);
