@@ -200,7 +200,7 @@ export async function loadFull(input: string | Buffer, limits?: Partial<ScanLimi
  * The small copy of pixels already decoded: one libvips reduction (linear filter, which averages
  * the pixels it drops) to `longSide`, always 8-bit RGB, always a buffer of its own (so the full
  * pixels may be corrected in place afterwards). It is the analysis copy and the source of every
- * preview and thumbnail: the full-resolution pixels are read once for it and never again.
+ * preview and thumbnail, so no other reduction of the full-resolution pixels is made.
  * tests/bench/engine.ts compares it with a shrink-on-load decode and a point sample.
  */
 export async function deriveReduced(full: ReducedPixels, longSide = ANALYSIS_SIDE): Promise<ReducedPixels> {
