@@ -1,6 +1,7 @@
 /**
- * The analyse queue: one decode per scan gives the analysis, the proposed correction, the
- * full-resolution corrected JPEG and the small copies (the engine's analyseAndRender). Idempotent:
+ * The analyse queue: one decode per scan gives the analysis, the proposed correction and the small
+ * copies of the original and of the proposal (the engine's analyseForReview); the item is then ready
+ * for review, and its full-resolution corrected JPEG is the render queue's work. Idempotent:
  * files go under deterministic keys and the proposed correction is version 1, made once, so a
  * retried or re-delivered job never adds rows or files.
  */
@@ -38,59 +39,67 @@ export async function settleIfDone(batchId: string): Promise<void> {
 }
 
 async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<void> {
-  const item = (await Item.findByPk(job.data.itemId, { include: [{ model: Original, as: 'original' }] })) as (Item & { original: Original }) | null;
-  if (!item) return;
-  if (item.state === 'ready' && item.renderKey) return;
-  const [claimed] = await Item.update({ state: 'analysing', failureReason: null }, { where: { id: item.id, state: { [Op.in]: ['queued', 'analysing'] } } });
-  if (claimed === 0) return;
+  // Claimed in one statement: only a queued item, or one whose earlier run was cut short.
+  const [claimed] = await db().query<{ id: string; batch_id: string; original_id: string; storage_key: string }>(
+    `UPDATE items i SET state = 'analysing', failure_reason = NULL, updated_at = now()
+       FROM originals o
+      WHERE i.id = :id AND o.id = i.original_id AND i.state IN ('queued', 'analysing')
+    RETURNING i.id, i.batch_id, i.original_id, o.storage_key`,
+    { replacements: { id: job.data.itemId }, type: QueryTypes.SELECT },
+  );
+  if (!claimed) return;
+  const item = { id: claimed.id, batchId: claimed.batch_id, originalId: claimed.original_id };
 
   const store = storage();
   const started = performance.now();
   try {
-    const path = await store.localPath(item.original.storageKey);
-    // thumbnails come from the engine's small copy of the decode, not from decoding the previews again
-    const result = await engine.analyseAndRender(path, { previews: { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE }, limits: uploadLimits() });
+    const path = await store.localPath(claimed.storage_key);
+    const result = await engine.analyseForReview(path, { previews: { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE }, limits: uploadLimits() });
     // The next free version: 1 for a new print, later for a print whose scan was replaced
     // (a rescan from the negative). A re-run before the commit below computes the same number
     // and overwrites the same files; after the commit the item is ready and the run stops above.
     const version = ((await Correction.max<number, Correction>('version', { where: { itemId: item.id } })) ?? 0) + 1;
-    const keys = {
-      render: derivedKeys.render(item.id, version),
-      preview: derivedKeys.originalPreview(item.id),
-      thumbnail: derivedKeys.originalThumbnail(item.id),
-    };
-    await store.put(keys.render, result.buffer);
+    const keys = { preview: derivedKeys.originalPreview(item.id), thumbnail: derivedKeys.originalThumbnail(item.id) };
     const engineDone = performance.now();
-    const previews = result.previews!;
-    await store.put(keys.preview, previews.original.preview!);
-    await store.put(keys.thumbnail, previews.original.thumbnail!);
-    await store.put(derivedKeys.renderPreview(item.id, version), previews.corrected.preview!);
-    await store.put(derivedKeys.renderThumbnail(item.id, version), previews.corrected.thumbnail!);
+    const { original, corrected } = result.previews;
+    await Promise.all([
+      store.put(keys.preview, original.preview!),
+      store.put(keys.thumbnail, original.thumbnail!),
+      store.put(derivedKeys.renderPreview(item.id, version), corrected.preview!),
+      store.put(derivedKeys.renderThumbnail(item.id, version), corrected.thumbnail!),
+    ]);
 
     const filesDone = performance.now();
-    await db().transaction(async (transaction) => {
-      const current = await Item.findByPk(item.id, { transaction, lock: transaction.LOCK.UPDATE });
-      if (!current || current.state !== 'analysing' || current.originalId !== item.originalId) return;
-      // (item_id, version) is unique: a duplicate run that lost the race fails here and rolls back.
-      await Correction.create({ itemId: item.id, version, params: result.correction as unknown as Record<string, unknown>, origin: 'proposed', createdBy: null }, { transaction });
-      await current.update(
+    // Ready for review, and its proposed correction recorded, in one statement: both or neither.
+    // Only the run that holds the item in analysis, for the scan it measured, gets there; a
+    // duplicate run that lost the race meets the unique (item_id, version) and changes nothing.
+    // The full-size corrected JPEG follows on the render queue (jobs/render.ts).
+    await db()
+      .query(
+        `WITH done AS (
+           UPDATE items SET state = 'ready', failure_reason = NULL, analysis = :analysis::jsonb, fade_grade = :grade,
+                  current_version = :version, thumb_key = :thumb, preview_key = :preview, preview_version = :version, updated_at = now()
+            WHERE id = :id AND state = 'analysing' AND original_id = :originalId
+           RETURNING id)
+         INSERT INTO corrections (id, item_id, version, params, origin, created_by, created_at)
+         SELECT gen_random_uuid(), id, :version, :params::jsonb, 'proposed', NULL, now() FROM done`,
         {
-          state: 'ready',
-          failureReason: null,
-          analysis: result.analysis as unknown as Record<string, unknown>,
-          fadeGrade: result.analysis.fadeGrade,
-          currentVersion: version,
-          thumbKey: keys.thumbnail,
-          previewKey: keys.preview,
-          renderKey: keys.render,
-          renderVersion: version,
+          replacements: {
+            id: item.id,
+            originalId: item.originalId,
+            version,
+            analysis: JSON.stringify(result.analysis),
+            grade: result.analysis.fadeGrade,
+            thumb: keys.thumbnail,
+            preview: keys.preview,
+            params: JSON.stringify(result.correction),
+          },
         },
-        { transaction },
-      );
-    }).catch((err) => {
-      if ((err as Error)?.name === 'SequelizeUniqueConstraintError') return;
-      throw err;
-    });
+      )
+      .catch((err) => {
+        if ((err as Error)?.name === 'SequelizeUniqueConstraintError') return;
+        throw err;
+      });
     const ms = (a: number, b: number) => Math.round(b - a);
     console.log(`analyse ${item.id}: ${ms(started, performance.now())} ms (engine ${ms(started, engineDone)}, files ${ms(engineDone, filesDone)}, database ${ms(filesDone, performance.now())})`);
   } catch (err) {
@@ -150,17 +159,16 @@ setInterval(() => {
 
 /**
  * Two images at a time on two cores (WORKER_CONCURRENCY), each on an engine thread of its own:
- * only the decode-analyse-render step holds a thread, so one scan's files and database rows are
+ * only the decode-and-measure step holds a thread, so one scan's files and database rows are
  * written while the next scan is already decoding.
  */
 const AT_ONCE = config().workerConcurrency;
 const engine = enginePool();
 
 /**
- * Two polling loops per worker, each fetching a few jobs at a time: pg-boss waits out the rest
- * of its polling interval after every handler call, and a loop only fetches again once all of
- * its jobs are done. With two loops sharing the engine slots, one loop's next jobs are fetched
- * while the other's last scans still hold the slots, so the cores do not wait on the tail of a fetch.
+ * Two polling loops per worker, each fetching a few jobs at a time and fetching again as soon as
+ * they are done (jobs/worker.ts): with two loops sharing the engine slots, one loop's next jobs
+ * are fetched while the other's last scans still hold the slots, so the cores do not wait on a fetch.
  */
 const FETCH = AT_ONCE + 1;
 const LOOPS = 2;

@@ -2,19 +2,19 @@
  * The batch-settled queue: runs when none of a batch's items waits for or is in analysis.
  * 1. Batch pooling (the engine's poolAnalyses): prints the engine is unsure of borrow the estimate
  *    of their siblings from the same box or drawer; where that changes the proposal, a 'pooled'
- *    correction version is added and rendered.
+ *    correction version is added (jobs/render.ts renders it, as it does every version without a render).
  * 2. Whoever created the batch gets one e-mail with the counts and a link (finished_notified_at).
  * Both wait until no scan has been added for BATCH_QUIET_SECONDS (the job puts itself off until then).
  * The batch row is locked throughout, so however many of these jobs arrive, the work is done once.
  */
 import type PgBoss from 'pg-boss';
 import { Op } from 'sequelize';
-import { Batch, Correction, Item, Original, User, db } from '../db/index.ts';
+import { Batch, Correction, Item, User, db } from '../db/index.ts';
 import { poolAnalyses, type Analysis } from '../src/lib/restoration/analysis.ts';
 import { stateCounts } from '../src/lib/server/batches.ts';
 import { config } from '../src/lib/server/config.ts';
 import { linkMail, sendMail } from '../src/lib/server/mailer.ts';
-import { BATCH_QUIET_SECONDS, BATCH_SETTLED_QUEUE, enqueueBatchSettled, enqueueRender, type BatchSettledJob } from '../src/lib/server/processing.ts';
+import { BATCH_QUIET_SECONDS, BATCH_SETTLED_QUEUE, enqueueBatchSettled, type BatchSettledJob } from '../src/lib/server/processing.ts';
 import type { JobHandler } from './registry.ts';
 
 /** The print's own measurement: the analysis as stored, without an earlier pooling note. */
@@ -26,7 +26,7 @@ function ownAnalysis(stored: Record<string, unknown>): Analysis {
 const same = (a: unknown, b: unknown) => JSON.stringify(a) === JSON.stringify(b);
 
 async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
-  const renders: { itemId: string; version: number; pixels: number }[] = [];
+  let pooledCount = 0;
   let mail: ReturnType<typeof linkMail> | null = null;
   let putOff = 0;
   await db().transaction(async (transaction) => {
@@ -41,7 +41,7 @@ async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
       return;
     }
 
-    const items = (await Item.findAll({ where: { batchId: batch.id, state: 'ready', analysis: { [Op.ne]: null } }, include: [{ model: Original, as: 'original' }], order: [['seq', 'ASC']], transaction })) as (Item & { original: Original })[];
+    const items = (await Item.findAll({ where: { batchId: batch.id, state: 'ready', analysis: { [Op.ne]: null } }, order: [['seq', 'ASC']], transaction }));
     const own = items.map((i) => ownAnalysis(i.analysis!));
     const pooled = poolAnalyses(own);
     for (let n = 0; n < items.length; n++) {
@@ -62,7 +62,7 @@ async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
         },
         { where: { id: item.id }, transaction },
       );
-      renders.push({ itemId: item.id, version, pixels: (item.original.width ?? 0) * (item.original.height ?? 0) });
+      pooledCount++;
     }
 
     if (!batch.finishedNotifiedAt) {
@@ -77,7 +77,7 @@ async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
           `All ${counts.total} scans of the batch "${batch.name}" have been processed: ${parts.join(', ')}.`,
           'Open the batch',
           url,
-          renders.length ? `${renders.length} uncertain prints borrowed the estimate of their siblings in this batch.` : '',
+          pooledCount ? `${pooledCount} uncertain prints borrowed the estimate of their siblings in this batch.` : '',
         );
         // Sent while the row is locked and before the mark is committed: a failed send rolls back and the job retries.
         await sendMail(mail);
@@ -86,7 +86,6 @@ async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
     }
   });
   if (putOff > 0) await enqueueBatchSettled(job.data.batchId, putOff);
-  for (const r of renders) await enqueueRender(r.itemId, r.version, r.pixels);
 }
 
 export const batchSettledHandler: JobHandler = {

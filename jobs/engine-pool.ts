@@ -1,11 +1,11 @@
 /**
- * A few engine threads for the worker: `analyseAndRender` and `renderCorrected` of the engine,
+ * A few engine threads for the worker: `analyseForReview` and `renderCorrected` of the engine,
  * each call on a thread of its own (at most one scan per thread), the results handed back.
  * On the worker's main thread the per-pixel JavaScript of two scans ran one after the other and
  * held up the queue and database work; on threads both cores run it (tests/bench/ingest.ts).
  */
 import { Worker } from 'node:worker_threads';
-import type { AnalyseAndRenderOptions, AnalyseAndRenderResult, RenderOptions, RenderResult, ScanLimits } from '../src/lib/restoration/imaging.ts';
+import type { AnalyseAndRenderOptions, AnalyseAndRenderResult, RenderOptions, RenderResult, ReviewCopiesOptions, ReviewCopiesResult, ScanLimits } from '../src/lib/restoration/imaging.ts';
 import { ScanRejected } from '../src/lib/restoration/errors.ts';
 import type { ScanRejectedCode } from '../src/lib/restoration/errors.ts';
 import type { Correction } from '../src/lib/restoration/correction.ts';
@@ -13,18 +13,20 @@ import { config } from '../src/lib/server/config.ts';
 
 export type EngineRequest =
   | { id: number; kind: 'analyseAndRender'; path: string; options: AnalyseAndRenderOptions }
+  | { id: number; kind: 'analyseForReview'; path: string; options: ReviewCopiesOptions }
   | { id: number; kind: 'renderCorrected'; path: string; correction: Correction; options: RenderOptions; limits?: Partial<ScanLimits> };
 type Job = EngineRequest extends infer R ? (R extends { id: number } ? Omit<R, 'id'> : never) : never;
 
-export type EngineReply = { id: number; ok: true; result: RenderResult } | { id: number; ok: false; rejected?: ScanRejectedCode; message: string };
+type EngineResult = RenderResult | ReviewCopiesResult;
+export type EngineReply = { id: number; ok: true; result: EngineResult } | { id: number; ok: false; rejected?: ScanRejectedCode; message: string };
 
 /** Structured cloning hands Buffers over as plain Uint8Arrays: make them Buffers again, without copying. */
 function asBuffer(b: Uint8Array | undefined): Buffer | undefined {
   return b === undefined ? undefined : Buffer.from(b.buffer, b.byteOffset, b.byteLength);
 }
 
-function revive<T extends RenderResult>(r: T): T {
-  r.buffer = asBuffer(r.buffer)!;
+function revive<T extends EngineResult>(r: T): T {
+  if ('buffer' in r) r.buffer = asBuffer(r.buffer)!;
   if (r.previews) {
     for (const set of [r.previews.original, r.previews.corrected]) {
       if (set.preview) set.preview = asBuffer(set.preview);
@@ -38,7 +40,7 @@ function revive<T extends RenderResult>(r: T): T {
 
 interface Lane {
   thread: Worker;
-  busy?: { id: number; resolve: (r: RenderResult) => void; reject: (e: Error) => void };
+  busy?: { id: number; resolve: (r: EngineResult) => void; reject: (e: Error) => void };
 }
 
 const THREAD_URL = new URL('./engine-thread.mjs', import.meta.url);
@@ -46,7 +48,7 @@ const THREAD_URL = new URL('./engine-thread.mjs', import.meta.url);
 /** At most `size` scans at a time, one per thread; further calls wait their turn in order. */
 export class EnginePool {
   private lanes: Lane[] = [];
-  private waiting: { job: Job; resolve: (r: RenderResult) => void; reject: (e: Error) => void }[] = [];
+  private waiting: { job: Job; resolve: (r: EngineResult) => void; reject: (e: Error) => void }[] = [];
   private nextId = 1;
 
   constructor(private readonly size: number) {}
@@ -55,11 +57,16 @@ export class EnginePool {
     return this.submit({ kind: 'analyseAndRender', path, options }) as Promise<AnalyseAndRenderResult>;
   }
 
-  renderCorrected(path: string, correction: Correction, options: RenderOptions, limits?: Partial<ScanLimits>): Promise<RenderResult> {
-    return this.submit({ kind: 'renderCorrected', path, correction, options, limits });
+  /** The analysis, the proposal and the small copies, without a full-resolution render. */
+  analyseForReview(path: string, options: ReviewCopiesOptions): Promise<ReviewCopiesResult> {
+    return this.submit({ kind: 'analyseForReview', path, options }) as Promise<ReviewCopiesResult>;
   }
 
-  private submit(job: Job): Promise<RenderResult> {
+  renderCorrected(path: string, correction: Correction, options: RenderOptions, limits?: Partial<ScanLimits>): Promise<RenderResult> {
+    return this.submit({ kind: 'renderCorrected', path, correction, options, limits }) as Promise<RenderResult>;
+  }
+
+  private submit(job: Job): Promise<EngineResult> {
     return new Promise((resolve, reject) => {
       this.waiting.push({ job, resolve, reject });
       this.pump();

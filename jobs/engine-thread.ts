@@ -6,7 +6,7 @@
  */
 import { parentPort } from 'node:worker_threads';
 import sharp from 'sharp';
-import { analyseAndRender, renderCorrected, ScanRejected } from '../src/lib/restoration/imaging.ts';
+import { analyseAndRender, analyseForReview, renderCorrected, ScanRejected } from '../src/lib/restoration/imaging.ts';
 import type { EngineReply, EngineRequest } from './engine-pool.ts';
 
 sharp.cache(false);
@@ -14,7 +14,12 @@ sharp.cache(false);
 parentPort!.on('message', async (req: EngineRequest) => {
   let reply: EngineReply;
   try {
-    const result = req.kind === 'analyseAndRender' ? await analyseAndRender(req.path, req.options) : await renderCorrected(req.path, req.correction, req.options, req.limits);
+    const result =
+      req.kind === 'analyseAndRender'
+        ? await analyseAndRender(req.path, req.options)
+        : req.kind === 'analyseForReview'
+          ? await analyseForReview(req.path, req.options)
+          : await renderCorrected(req.path, req.correction, req.options, req.limits);
     reply = { id: req.id, ok: true, result };
   } catch (err) {
     const e = err as Error;

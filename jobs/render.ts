@@ -1,57 +1,105 @@
 /**
- * The render queue: the full-resolution corrected JPEG (and its small copies) of one correction
- * version, for versions made after the first analysis (batch pooling now, an operator's change
- * later). The files go under renders/<item>/v<version>.jpg, so a retried job overwrites its own
- * output; the item points at the newest rendered version, never back at an older one.
+ * The render queue: the full-resolution corrected JPEG of one correction version
+ * (src/lib/server/renders.ts). An item is ready for review before it has one; this file also feeds
+ * the queue. The feeder sends render jobs once nothing waits for analysis and no scan has arrived
+ * for RENDER_QUIET_SECONDS, so a sitting's scans are all analysed first (and a print ready for
+ * more than RENDER_CATCH_UP_SECONDS is rendered even while a long sitting goes on). It keeps a
+ * few jobs waiting at a time, so a new sitting never finds hundreds of renders ahead of it.
  */
 import type PgBoss from 'pg-boss';
-import { Op } from 'sequelize';
-import { Correction, Item, Original } from '../db/index.ts';
-import { correctionSchema } from '../src/lib/restoration/correction.ts';
-import { ScanRejected } from '../src/lib/restoration/imaging.ts';
-import { uploadLimits } from '../src/lib/server/ingest.ts';
-import { derivedKeys, PREVIEW_SIDE, RENDER_QUEUE, THUMBNAIL_SIDE, type RenderJob } from '../src/lib/server/processing.ts';
-import { storage } from '../src/lib/server/storage.ts';
+import { QueryTypes } from 'sequelize';
+import { db } from '../db/index.ts';
+import { RENDER_CATCH_UP_SECONDS, RENDER_QUEUE, RENDER_QUIET_SECONDS, requestRender, type RenderJob } from '../src/lib/server/processing.ts';
+import { renderItemVersion } from '../src/lib/server/renders.ts';
+import { config } from '../src/lib/server/config.ts';
+import { queue } from '../src/lib/server/queue.ts';
+import { eachAtMost } from './each-at-most.ts';
 import { enginePool } from './engine-pool.ts';
+import { wakeLoops } from './loops.ts';
 import type { JobHandler } from './registry.ts';
 
-async function renderVersion(job: PgBoss.Job<RenderJob>): Promise<void> {
-  const { itemId, version } = job.data;
-  const item = (await Item.findByPk(itemId, { include: [{ model: Original, as: 'original' }] })) as (Item & { original: Original }) | null;
-  const correction = await Correction.findOne({ where: { itemId, version } });
-  if (!item || !correction) return;
-  if ((item.renderVersion ?? 0) >= version && item.renderKey) return;
+/** Render jobs kept waiting in the queue: enough for every polling loop of a couple of workers. */
+const WAITING_TARGET = 8;
+/**
+ * A print marked as sent this long ago with no render job alive (a worker stopped between marking
+ * and sending, or its job failed for good an hour or more ago) is sent again; looked for every LOST_EVERY_MS.
+ */
+const LOST_AFTER = "interval '30 seconds'";
+const LOST_EVERY_MS = 15_000;
+const FEED_EVERY_MS = 1000;
+let lostLookedAt = 0;
 
-  const store = storage();
-  const key = derivedKeys.render(itemId, version);
-  try {
-    const result = await enginePool().renderCorrected(
-      await store.localPath(item.original.storageKey),
-      correctionSchema.parse(correction.params),
-      { previews: { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE, correctedOnly: true } },
-      uploadLimits(),
-    );
-    await store.put(key, result.buffer);
-    await store.put(derivedKeys.renderPreview(itemId, version), result.previews!.corrected.preview!);
-    await store.put(derivedKeys.renderThumbnail(itemId, version), result.previews!.corrected.thumbnail!);
-  } catch (err) {
-    // The scan decoded once already; if it no longer does, keep the earlier render and say why.
-    if (err instanceof ScanRejected) {
-      console.error(`[render] item ${itemId} v${version}: ${err.message}`);
-      return;
-    }
-    throw err;
-  }
-  await Item.update(
-    { renderKey: key, renderVersion: version },
-    { where: { id: itemId, [Op.or]: [{ renderVersion: null }, { renderVersion: { [Op.lt]: version } }] } },
+/** Sends render jobs for prints that lack a render of their current version, when the machine is free for it. */
+export async function feedRenders(): Promise<number> {
+  const [state] = await db().query<{ busy: boolean; waiting: string }>(
+    `SELECT (EXISTS (SELECT 1 FROM items WHERE state IN ('queued', 'analysing'))
+             OR EXISTS (SELECT 1 FROM items WHERE created_at > now() - make_interval(secs => :quiet))) AS busy,
+            (SELECT count(*) FROM pgboss.job WHERE name = :queue AND state IN ('created', 'retry')) AS waiting`,
+    { replacements: { quiet: RENDER_QUIET_SECONDS, queue: RENDER_QUEUE.name }, type: QueryTypes.SELECT },
   );
+  const room = (state.busy ? 2 : WAITING_TARGET) - Number(state.waiting);
+  if (room <= 0) return 0;
+  if (Date.now() - lostLookedAt > LOST_EVERY_MS) {
+    lostLookedAt = Date.now();
+    await db().query(
+      `UPDATE items i SET render_queued_version = NULL
+        WHERE i.render_queued_version > COALESCE(i.render_version, 0) AND i.render_queued_at < now() - ${LOST_AFTER}
+          AND NOT EXISTS (SELECT 1 FROM pgboss.job j WHERE j.name = :queue AND j.data->>'itemId' = i.id::text
+                           AND (j.state < 'completed' OR (j.state = 'failed' AND j.completed_on > now() - interval '1 hour')))`,
+      { replacements: { queue: RENDER_QUEUE.name } },
+    );
+  }
+  const wanted = await db().query<{ id: string; current_version: number }>(
+    `SELECT id, current_version FROM items
+      WHERE state = 'ready' AND current_version IS NOT NULL AND (render_version IS NULL OR render_version < current_version)
+        AND (render_queued_version IS NULL OR render_queued_version < current_version)
+        ${state.busy ? 'AND updated_at < now() - make_interval(secs => :catchUp)' : ''}
+      ORDER BY updated_at LIMIT :room`,
+    { replacements: { room, catchUp: RENDER_CATCH_UP_SECONDS }, type: QueryTypes.SELECT },
+  );
+  let sent = 0;
+  for (const w of wanted) if (await requestRender(w.id, w.current_version)) sent++;
+  if (sent > 0) await wakeLoops(RENDER_QUEUE.name);
+  return sent;
 }
+
+let feeding = false;
+function feedSoon(): void {
+  if (feeding) return;
+  feeding = true;
+  feedRenders()
+    .catch((err) => console.error('[render] feeding the queue failed:', err))
+    .finally(() => {
+      feeding = false;
+    });
+}
+
+let feeder: NodeJS.Timeout | undefined;
+/** Starts the feeder of this worker (jobs/worker.ts). */
+export function startRenderFeeder(): void {
+  feeder ??= setInterval(feedSoon, FEED_EVERY_MS);
+  feeder.unref();
+}
+
+const engine = enginePool();
+const renderer = engine.renderCorrected.bind(engine);
+const AT_ONCE = config().workerConcurrency;
 
 export const renderHandler: JobHandler = {
   queue: RENDER_QUEUE.name,
-  concurrency: (c) => Math.max(1, Math.floor(c.workerConcurrency / 2)),
-  handle: async (jobs: PgBoss.Job<RenderJob>[]) => {
-    for (const job of jobs) await renderVersion(job);
-  },
+  // two polling loops of a few jobs each, sharing the engine threads (as jobs/analyse.ts)
+  concurrency: () => 2,
+  workOptions: { batchSize: AT_ONCE + 1 },
+  handle: (async (jobs: PgBoss.Job<RenderJob>[]) => {
+    const boss = await queue();
+    await eachAtMost(jobs, AT_ONCE + 1, async (job) => {
+      try {
+        await renderItemVersion(job.data.itemId, job.data.version, renderer);
+      } catch (err) {
+        // Fail this job alone (pg-boss retries it with backoff); the others of the fetch complete.
+        await boss.fail(RENDER_QUEUE.name, job.id, { message: String((err as Error)?.message ?? err) });
+      }
+    });
+    feedSoon();
+  }) as PgBoss.WorkHandler<any>,
 };

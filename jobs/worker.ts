@@ -2,11 +2,14 @@
  * The job worker: one process that runs every queue's handler. `npm start` runs one;
  * `npm run worker` runs another alone (several may run at once; pg-boss hands each job to one).
  */
+import type PgBoss from 'pg-boss';
 import sharp from 'sharp';
 import { closeDb } from '../db/index.ts';
 import { config } from '../src/lib/server/config.ts';
 import { queue, stopQueue } from '../src/lib/server/queue.ts';
 import { HANDLERS } from './registry.ts';
+import { registerLoop } from './loops.ts';
+import { startRenderFeeder } from './render.ts';
 
 sharp.cache(false);
 
@@ -28,12 +31,24 @@ process.on('unhandledRejection', (reason) => {
 });
 const c = config();
 const boss = await queue();
-for (const h of HANDLERS) {
-  await boss.work(h.queue, { batchSize: 1, pollingIntervalSeconds: 0.5, ...(h.workOptions ?? {}) }, h.handle);
-  for (let i = 1; i < (h.concurrency?.(c) ?? 1); i++) {
-    await boss.work(h.queue, { batchSize: 1, pollingIntervalSeconds: 0.5, ...(h.workOptions ?? {}) }, h.handle);
-  }
+/**
+ * One polling loop of a queue. pg-boss waits out the rest of its polling interval (0.5 s at least)
+ * after each fetch, jobs found or not; a loop that found jobs asks for more at once instead
+ * (notifyWorker), so a busy queue is worked at the speed of its handler, not of the interval.
+ */
+async function loop(h: (typeof HANDLERS)[number]): Promise<void> {
+  let id = '';
+  const handle = async (jobs: PgBoss.Job[]) => {
+    await h.handle(jobs);
+    if (jobs.length > 0 && id) boss.notifyWorker(id);
+  };
+  id = await boss.work(h.queue, { batchSize: 1, pollingIntervalSeconds: 0.5, ...(h.workOptions ?? {}) }, handle as PgBoss.WorkHandler<unknown>);
+  registerLoop(h.queue, id);
 }
+for (const h of HANDLERS) {
+  for (let i = 0; i < (h.concurrency?.(c) ?? 1); i++) await loop(h);
+}
+startRenderFeeder();
 console.log(`worker ${process.pid}: working on ${HANDLERS.map((h) => h.queue).join(', ') || 'no queues yet'}`);
 
 let stopping = false;

@@ -22,6 +22,11 @@ export class Item extends Model<InferAttributes<Item>, InferCreationAttributes<I
   declare previewKey: CreationOptional<string | null>;
   declare renderKey: CreationOptional<string | null>;
   declare renderVersion: CreationOptional<number | null>;
+  /** The correction version the stored preview and thumbnail show. */
+  declare previewVersion: CreationOptional<number | null>;
+  /** The newest version a render job was sent for, and when (jobs/render.ts feeds the queue). */
+  declare renderQueuedVersion: CreationOptional<number | null>;
+  declare renderQueuedAt: CreationOptional<Date | null>;
   declare decision: CreationOptional<Decision | null>;
   declare decidedBy: CreationOptional<string | null>;
   declare decidedAt: CreationOptional<Date | null>;
@@ -58,6 +63,9 @@ export class Item extends Model<InferAttributes<Item>, InferCreationAttributes<I
         previewKey: DataTypes.STRING(300),
         renderKey: DataTypes.STRING(300),
         renderVersion: DataTypes.INTEGER,
+        previewVersion: DataTypes.INTEGER,
+        renderQueuedVersion: DataTypes.INTEGER,
+        renderQueuedAt: DataTypes.DATE,
         decision: DataTypes.ENUM(...DECISIONS),
         decidedBy: DataTypes.UUID,
         decidedAt: DataTypes.DATE,

@@ -82,6 +82,12 @@ export default function BatchProgress({ batchId, initial, compact = false }: Pro
           </li>
         ))}
       </ul>
+      {!compact && counts.ready > 0 && (
+        <p className="text-sm text-ink-500" data-count="full-size">
+          Full-size corrected images: <span className="font-medium tabular-nums" data-value>{counts.fullSize ?? 0}</span> of {counts.ready}
+          {(counts.fullSize ?? 0) < counts.ready ? ' (made after the analyses; reviewing does not wait for them)' : ''}
+        </p>
+      )}
     </div>
   );
 }

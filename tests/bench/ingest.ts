@@ -3,21 +3,26 @@
  * asserts nothing.
  * 100 generated 3600x2400 scans (6x4 in at 600 dpi; invented scenes, each aged differently so every
  * file has other bytes) are uploaded through the API, four at a time, and timed until every item
- * is ready (analysis, proposed correction, full-resolution corrected JPEG and previews). The floor,
+ * is ready for review (analysis, proposed correction, the small copies of the original and of the
+ * proposal), then on until every full-size corrected JPEG is made (the render queue, fed once no scan
+ * waits for analysis: jobs/render.ts); both times are printed, each with its ratio. The floor,
  * measured in the same run (tests/bench/floor.ts): 100 x a bare sharp decode -> JPEG q92 encode of
  * these scans on one core (pinned with taskset), divided by the 2 cores; beside it, what 100 bare
  * decode -> encodes two at a time really take on this machine. The web server's and the worker's resident memory is sampled from
  * /proc throughout, at each quarter of the batch, to show it stays flat as the batch grows.
+ * BENCH_COUNT changes the number of scans; BENCH_SCANS_DIR keeps the generated scans there for the next run.
  * Ends with `ingest_ratio`, `server_peak_rss_mb` and `worker_peak_rss_mb`.
  */
-import { createReadStream, mkdtempSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import { createReadStream, existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Readable } from 'node:stream';
 import sharp from 'sharp';
 import { closeDb } from '../../db/index.ts';
+import { isSettled } from '../../src/lib/batches/schemas.ts';
+import { stateCounts } from '../../src/lib/server/batches.ts';
 import { AGEING_MODELS, agePixels, encodeScene, generateScene, type Ageing } from '../../src/lib/demo/synthetic.ts';
-import { analyseAndRender } from '../../src/lib/restoration/imaging.ts';
+import { analyseForReview, renderCorrected } from '../../src/lib/restoration/imaging.ts';
 import { PREVIEW_SIDE, THUMBNAIL_SIDE } from '../../src/lib/server/processing.ts';
 import { describeFloor, measureFloor } from './floor.ts';
 import { Agent, request } from 'node:http';
@@ -80,6 +85,11 @@ function cpuSeconds(pid: number): number {
 
 async function generate(dir: string): Promise<string[]> {
   const t0 = performance.now();
+  const kept = Array.from({ length: COUNT }, (_, i) => join(dir, `scan-${String(i + 1).padStart(3, '0')}.jpg`));
+  if (process.env.BENCH_SCANS_DIR && kept.every((f) => existsSync(f))) {
+    console.log(`reusing the ${COUNT} generated scans in ${dir} (BENCH_SCANS_DIR)`);
+    return kept;
+  }
   const scenes = [
     generateScene({ width: WIDTH, height: HEIGHT, border: true, seed: 1 }),
     generateScene({ width: WIDTH, height: HEIGHT, border: false, seed: 2 }),
@@ -101,20 +111,26 @@ async function generate(dir: string): Promise<string[]> {
 }
 
 /**
- * The engine alone, as the worker calls it (one decode: analysis, render, previews, thumbnails), two
- * scans at a time, in ms per scan: where the pipeline's time goes, apart from upload, storage and queue.
+ * The engine alone, as the worker calls it, two scans at a time, in ms per scan: the analyse job's
+ * work (analysis, proposal, small copies) and the render job's (full-size corrected JPEG and its
+ * small copies). Where the pipeline's time goes, apart from upload, storage and queue.
  */
-async function engineMs(files: string[]): Promise<{ wall: number; cpu: number }> {
+async function engineMs(files: string[]): Promise<{ analyse: { wall: number; cpu: number }; render: { wall: number; cpu: number } }> {
   sharp.concurrency(0);
   const bytes = files.slice(0, FLOOR_SAMPLES).map((f) => readFileSync(f));
   const previews = { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE };
-  await analyseAndRender(bytes[0], { previews });
-  const c0 = process.cpuUsage();
-  const t0 = performance.now();
-  for (let i = 0; i + 1 < bytes.length; i += 2) await Promise.all([analyseAndRender(bytes[i], { previews }), analyseAndRender(bytes[i + 1], { previews })]);
-  const c = process.cpuUsage(c0);
-  const n = bytes.length - (bytes.length % 2);
-  return { wall: (performance.now() - t0) / n, cpu: (c.user + c.system) / 1000 / n };
+  const first = await analyseForReview(bytes[0], { previews });
+  const pairs = async (fn: (b: Buffer) => Promise<unknown>) => {
+    const c0 = process.cpuUsage();
+    const t0 = performance.now();
+    for (let i = 0; i + 1 < bytes.length; i += 2) await Promise.all([fn(bytes[i]), fn(bytes[i + 1])]);
+    const c = process.cpuUsage(c0);
+    const n = bytes.length - (bytes.length % 2);
+    return { wall: (performance.now() - t0) / n, cpu: (c.user + c.system) / 1000 / n };
+  };
+  const analyse = await pairs((b) => analyseForReview(b, { previews }));
+  const render = await pairs((b) => renderCorrected(b, first.correction, { previews: { ...previews, correctedOnly: true } }));
+  return { analyse, render };
 }
 
 async function api(token: string, method: string, path: string, body?: unknown) {
@@ -152,7 +168,10 @@ function uploadFile(token: string, batchId: string, file: string): Promise<numbe
   });
 }
 
-const work = mkdtempSync(join(tmpdir(), 'drawerlight-bench-ingest-'));
+// BENCH_SCANS_DIR keeps the generated scans between runs (they take about half a minute to make).
+const keepScans = process.env.BENCH_SCANS_DIR;
+const work = keepScans ?? mkdtempSync(join(tmpdir(), 'drawerlight-bench-ingest-'));
+if (keepScans) mkdirSync(keepScans, { recursive: true });
 try {
   const files = await generate(work);
   console.log(`load average at start: ${loadavg().map((x) => x.toFixed(2)).join(' ')}`);
@@ -164,7 +183,7 @@ try {
   const bare = { wall: floor.singleCore, cpu: floor.oneLibvipsThreadCpu };
 
   const engine = await engineMs(files);
-  console.log(`engine alone (analyse + render + previews), two at a time: ${engine.wall.toFixed(1)} ms/scan wall, ${engine.cpu.toFixed(1)} ms/scan CPU; engine_only_ratio: ${((engine.wall * COUNT) / 1000 / floorS).toFixed(2)}; engine_cpu_ratio_to_bare: ${(engine.cpu / bare.cpu).toFixed(2)}`);
+  console.log(`engine alone, two at a time: analyse job ${engine.analyse.wall.toFixed(1)} ms/scan wall, ${engine.analyse.cpu.toFixed(1)} ms CPU; render job ${engine.render.wall.toFixed(1)} ms/scan wall, ${engine.render.cpu.toFixed(1)} ms CPU; both against the bare decode -> encode's CPU: ${((engine.analyse.cpu + engine.render.cpu) / bare.cpu).toFixed(2)}`);
 
   const archive = await makeArchive('bench-ingest');
   const token = archive.editor.token;
@@ -200,8 +219,10 @@ try {
   const quarters = new Set<number>();
   let counts: any = {};
   for (;;) {
-    const s = await api(token, 'GET', `/api/batches/${batchId}`);
-    counts = s.body.counts;
+    // Watched in the database with the counts the batch API serves (stateCounts), every 100 ms:
+    // asking the web server that often would add its own work to the figures.
+    counts = (await stateCounts([batchId])).get(batchId)!;
+    const s = { body: { settled: isSettled(counts) } };
     const done = (counts.ready ?? 0) + (counts.failed ?? 0);
     for (const q of [1, 2, 3, 4]) {
       if (!quarters.has(q) && done >= (COUNT * q) / 4) {
@@ -217,7 +238,20 @@ try {
   const totalS = (performance.now() - t0) / 1000;
   const benchCpu = process.cpuUsage(cpuBefore.bench);
   const cpuUsed = { server: cpuSeconds(serverPid) - cpuBefore.server, worker: cpuSeconds(workerPid) - cpuBefore.worker, postgres: postgresCpuSeconds() - cpuBefore.postgres, bench: (benchCpu.user + benchCpu.system) / 1e6 };
+  const threadsAtReady = cpuByThread(workerPid);
   await uploads;
+
+  // On until every ready print has its full-size corrected JPEG.
+  let fullSize = 0;
+  for (;;) {
+    const c = (await stateCounts([batchId])).get(batchId)!;
+    fullSize = c.fullSize;
+    if (fullSize >= c.ready) break;
+    if (performance.now() - t0 > 30 * 60 * 1000) throw new Error(`gave up on the renders after 30 minutes: ${JSON.stringify(c)}`);
+    await new Promise((r) => setTimeout(r, 100));
+  }
+  const renderedS = (performance.now() - t0) / 1000;
+  const cpuToRendered = { server: cpuSeconds(serverPid) - cpuBefore.server, worker: cpuSeconds(workerPid) - cpuBefore.worker, postgres: postgresCpuSeconds() - cpuBefore.postgres };
   clearInterval(sampler);
   const after = { server: memory(serverPid), worker: memory(workerPid) };
   peak.server = Math.max(peak.server, after.server.hwm);
@@ -226,20 +260,25 @@ try {
   const refused = statuses.filter((s) => s !== 201).length;
   console.log(`uploads: ${statuses.length} answered, ${refused} not 201; all uploaded after ${((uploadedAt - t0) / 1000).toFixed(1)} s`);
   console.log(`items: ${counts.ready} ready, ${counts.failed} failed`);
-  console.log(`ingest of ${COUNT} scans until all ready: ${totalS.toFixed(2)} s (${((totalS * 1000) / COUNT).toFixed(0)} ms/scan)`);
+  console.log(`ingest of ${COUNT} scans until all ready for review: ${totalS.toFixed(2)} s (${((totalS * 1000) / COUNT).toFixed(0)} ms/scan)`);
+  console.log(`until every full-size corrected JPEG was made as well: ${renderedS.toFixed(2)} s (${fullSize} renders)`);
   const per = (s: number) => ((s * 1000) / COUNT).toFixed(1);
-  console.log(`CPU per scan: worker ${per(cpuUsed.worker)} ms, web server ${per(cpuUsed.server)} ms, this uploading client ${per(cpuUsed.bench)} ms, PostgreSQL ${per(cpuUsed.postgres)} ms (its processes still running); worker_cpu_ratio_to_bare: ${((cpuUsed.worker * 1000) / COUNT / bare.cpu).toFixed(2)}`);
+  console.log(`CPU per scan until ready: worker ${per(cpuUsed.worker)} ms, web server ${per(cpuUsed.server)} ms, this uploading client ${per(cpuUsed.bench)} ms, PostgreSQL ${per(cpuUsed.postgres)} ms (its processes still running)`);
+  console.log(`CPU per scan until rendered: worker ${per(cpuToRendered.worker)} ms, web server ${per(cpuToRendered.server)} ms, PostgreSQL ${per(cpuToRendered.postgres)} ms; worker_cpu_ratio_to_bare: ${((cpuToRendered.worker * 1000) / COUNT / bare.cpu).toFixed(2)}`);
   const threadsAfter = cpuByThread(workerPid);
-  const byThread = [...threadsAfter.entries()].map(([name, s]) => [name, s - (threadsBefore.get(name) ?? 0)] as const).filter(([, s]) => s > 0.005);
-  console.log(`worker CPU per scan by thread: ${byThread.map(([name, s]) => `${name} ${((s * 1000) / COUNT).toFixed(1)} ms`).join(', ')}`);
+  const byThread = (from: Map<string, number>, to: Map<string, number>) =>
+    [...to.entries()].map(([name, s]) => [name, s - (from.get(name) ?? 0)] as const).filter(([, s]) => s > 0.005).map(([name, s]) => `${name} ${((s * 1000) / COUNT).toFixed(1)} ms`).join(', ');
+  console.log(`worker CPU per scan by thread until ready: ${byThread(threadsBefore, threadsAtReady)}`);
+  console.log(`worker CPU per scan by thread, renders after ready: ${byThread(threadsAtReady, threadsAfter)}`);
   console.log(`load average at end: ${loadavg().map((x) => x.toFixed(2)).join(' ')}`);
   console.log(`ingest_ratio_to_bare_two_lanes: ${(totalS / twoLanesS).toFixed(2)} (against ${COUNT} bare decode -> encodes run two at a time)`);
   console.log(`ingest_ratio_to_bare_one_libvips_thread: ${(totalS / ((COUNT * floor.oneLibvipsThread) / 1000 / CORES)).toFixed(2)} (the floor as earlier runs took it: unpinned, whose writer uses a second core, over 2 cores)`);
-  console.log('ingest_ratio is the wall time until all are ready against the bare decode -> encode (q92, sharp\'s defaults) on one core, times the count, over 2 cores');
+  console.log(`full_size_ratio: ${(renderedS / floorS).toFixed(2)} (until every full-size corrected JPEG is made too, against the same floor)`);
+  console.log('ingest_ratio is the wall time until all are ready for review against the bare decode -> encode (q92, sharp\'s defaults) on one core, times the count, over 2 cores');
   console.log(`ingest_ratio: ${(totalS / floorS).toFixed(2)}`);
   console.log(`server_peak_rss_mb: ${peak.server.toFixed(0)}`);
   console.log(`worker_peak_rss_mb: ${peak.worker.toFixed(0)}`);
 } finally {
-  rmSync(work, { recursive: true, force: true });
+  if (!keepScans) rmSync(work, { recursive: true, force: true });
   await closeDb();
 }

@@ -64,3 +64,16 @@ export async function waitSettled(client: Client, batchId: string, timeoutMs = 2
   }
   throw new Error(`batch ${batchId} did not settle in time: ${JSON.stringify(last?.counts)}`);
 }
+
+/** Polls a batch until `n` of its prints have the full-size corrected image of their current correction. */
+export async function waitFullSize(client: Client, batchId: string, n: number, timeoutMs = 240_000) {
+  const deadline = Date.now() + timeoutMs;
+  let last: any;
+  while (Date.now() < deadline) {
+    const r = await client.get(`/api/batches/${batchId}`);
+    last = r.body;
+    if (r.status === 200 && r.body.counts.fullSize >= n) return r.body;
+    await new Promise((res) => setTimeout(res, 500));
+  }
+  throw new Error(`batch ${batchId} did not get ${n} full-size renders in time: ${JSON.stringify(last?.counts)}`);
+}

@@ -28,11 +28,15 @@ export const ITEM_STATE_LABELS: Record<ItemState, string> = {
 };
 
 /** Counts of a batch's items per state, plus the total. */
-export type StateCounts = Record<ItemState, number> & { total: number };
+/**
+ * Items per state, and `fullSize`: how many ready prints have the full-size corrected JPEG of their
+ * current correction (made after "ready", once no scans wait for analysis; exports make any missing one).
+ */
+export type StateCounts = Record<ItemState, number> & { total: number; fullSize: number };
 
 /** All-zero counts. */
 export function emptyCounts(): StateCounts {
-  return { queued: 0, analysing: 0, ready: 0, failed: 0, total: 0 };
+  return { queued: 0, analysing: 0, ready: 0, failed: 0, total: 0, fullSize: 0 };
 }
 
 /** True when no item of the batch still waits for or is in analysis. */

@@ -18,8 +18,30 @@ export const DEFAULT_LIMITS = { maxPixels: 150_000_000, maxBytes: 500 * 1024 * 1
 
 export type ScanFormat = 'jpeg' | 'png' | 'tiff';
 
-/** Long side of the reduced copy the analysis measures (the issue asks for about 1 to 1.5 k pixels). */
+/** Longest side of the reduced copy the analysis measures and the previews show. */
 export const ANALYSIS_SIDE = 1280;
+/** Shortest long side of that copy where a JPEG's shrink-on-load leaves a choice (see {@link reviewCopySide}). */
+export const ANALYSIS_MIN_SIDE = 900;
+
+/**
+ * Long side of the reduced copy of a scan that the analysis measures and the previews show.
+ * A JPEG decodes at 1/2, 1/4 or 1/8 of its size for a fraction of a full decode (libjpeg's scaled
+ * DCT; tests/bench/engine.ts prints the costs), so for a JPEG it is the smallest of those sizes that
+ * keeps ANALYSIS_MIN_SIDE, reduced further to ANALYSIS_SIDE when larger: 900 px for a 6x4 in print
+ * at 600 dpi (3600 px, 1/4) or 1200 dpi (7200 px, 1/8), 1200 px at 400 dpi (2400 px, 1/2), 1250 px
+ * for a 5000 px scan (1/4). Other formats decode whole anyway: ANALYSIS_SIDE.
+ * Never larger than the scan.
+ */
+export function reviewCopySide(longSide: number, format: ScanFormat): number {
+  if (longSide <= ANALYSIS_MIN_SIDE) return longSide;
+  if (format === 'jpeg') {
+    for (const shrink of [8, 4, 2]) {
+      const side = Math.ceil(longSide / shrink);
+      if (side >= ANALYSIS_MIN_SIDE) return Math.min(side, ANALYSIS_SIDE);
+    }
+  }
+  return Math.min(longSide, ANALYSIS_SIDE);
+}
 
 /** What the header of a scan says, read without decoding the pixels. */
 export interface ScanProbe {
@@ -164,10 +186,17 @@ function decoder(input: string | Buffer, probe: ScanProbe, keep16: boolean): sha
  * @throws {ScanRejected}
  */
 export async function loadReduced(input: string | Buffer, longSide = ANALYSIS_SIDE, limits?: Partial<ScanLimits>): Promise<ReducedPixels> {
-  const probe = await probeScan(input, limits);
+  return decodeReduced(input, await probeScan(input, limits), longSide);
+}
+
+/**
+ * The reduced decode of a probed scan. A JPEG is decoded at 1/2, 1/4 or 1/8 scale by the decoder
+ * itself (libjpeg's scaled DCT) and only the rest is reduced by a filter; `kernel` names that filter.
+ */
+async function decodeReduced(input: string | Buffer, probe: ScanProbe, longSide: number, kernel: keyof sharp.KernelEnum = 'lanczos3'): Promise<ReducedPixels> {
   try {
     const { data, info } = await decoder(input, probe, false)
-      .resize({ width: longSide, height: longSide, fit: 'inside', withoutEnlargement: true })
+      .resize({ width: longSide, height: longSide, fit: 'inside', withoutEnlargement: true, kernel })
       .raw()
       .toBuffer({ resolveWithObject: true });
     return { data: new Uint8Array(data.buffer, data.byteOffset, data.length), width: info.width, height: info.height, channels: info.channels, depth: 8 };
@@ -418,6 +447,20 @@ async function previewSet(small: ReducedPixels, sizes: RenderOptions['previews']
 }
 
 /**
+ * The small JPEGs of the original and of its correction, from one 8-bit small copy. The corrected
+ * copy is the correction applied to the small original, as the review page's live preview does:
+ * a millisecond, where a reduction of the full corrected pixels costs as much as the first.
+ * `luts` are the correction's 8-bit tables when the caller has built them already.
+ */
+async function smallCopies(reduced: ReducedPixels, c: Correction, sizes: RenderOptions['previews'], luts?: ReturnType<typeof buildChannelLuts>): Promise<{ original: PreviewSet; corrected: PreviewSet }> {
+  const smallLuts = isIdentity(c) ? undefined : (luts ?? buildChannelLuts(c, 8, 8));
+  const correctedSmall: ReducedPixels = smallLuts ? { ...reduced, data: applyCorrection(reduced.data, reduced.channels, smallLuts) as Uint8Array, depth: 8 } : reduced;
+  const wantOriginal = !sizes?.correctedOnly;
+  const [original, correctedSet] = await Promise.all([wantOriginal || !smallLuts ? previewSet(reduced, sizes) : {}, smallLuts ? previewSet(correctedSmall, sizes) : undefined]);
+  return { original: wantOriginal ? original : {}, corrected: correctedSet ?? original };
+}
+
+/**
  * Renders from decoded pixels. `small`, when previews are asked for, is the 8-bit small copy
  * made by {@link deriveReduced} (the analysis copy, when the caller measured the print first);
  * it is made here otherwise. Every preview and thumbnail comes from it.
@@ -433,7 +476,8 @@ async function renderFromFull(full: FullPixels, correction: Correction, options:
     src = { data: full.depth === 16 ? new Uint16Array(data.buffer.slice(data.byteOffset, data.byteOffset + data.length)) : new Uint8Array(data.buffer, data.byteOffset, data.length), width: info.width, height: info.height, channels: info.channels, depth: full.depth };
     small = undefined;
   }
-  const side = smallSide(options.previews);
+  // previews are never larger than the copy the review analysis makes of the same scan
+  const side = Math.min(smallSide(options.previews), reviewCopySide(Math.max(src.width, src.height), full.probe.format));
   // the small copy of the original must be taken before the full pixels are corrected in place
   const reduced = side > 0 ? (small ?? (await deriveReduced(src, side))) : undefined;
   // an unfaded print on 8-bit pixels needs no per-pixel pass at all
@@ -446,17 +490,7 @@ async function renderFromFull(full: FullPixels, correction: Correction, options:
   const exif = meaningfulExif(full.probe.exif);
   if (Object.keys(exif).length > 0) out = out.withExif(exif);
   const encoding = Promise.all([out.jpeg({ quality: options.quality ?? 92, optimiseCoding: options.optimiseCoding ?? false }).toBuffer(), srgbIcc()]);
-  let previews: RenderResult['previews'];
-  if (reduced) {
-    // the corrected small copy is the same correction applied to the small original, as the
-    // review page's live preview does: a millisecond, where a second reduction of the full
-    // corrected pixels costs as much as the first. The small copy is always 8-bit.
-    const smallLuts = isIdentity(c) ? undefined : luts && src.depth === 8 ? luts : buildChannelLuts(c, 8, 8);
-    const correctedSmall: ReducedPixels = smallLuts ? { ...reduced, data: applyCorrection(reduced.data, reduced.channels, smallLuts) as Uint8Array, depth: 8 } : reduced;
-    const wantOriginal = !options.previews?.correctedOnly;
-    const [original, correctedSet] = await Promise.all([wantOriginal || !smallLuts ? previewSet(reduced, options.previews) : {}, smallLuts ? previewSet(correctedSmall, options.previews) : undefined]);
-    previews = { original: wantOriginal ? original : {}, corrected: correctedSet ?? original };
-  }
+  const previews = reduced ? await smallCopies(reduced, c, options.previews, luts && src.depth === 8 ? luts : undefined) : undefined;
   const [encoded, icc] = await encoding;
   const withIcc = embedIcc(encoded, icc);
   const buffer = full.probe.density ? stampResolution(withIcc, full.probe.density) : withIcc;
@@ -525,4 +559,38 @@ export async function analyseAndRender(input: string | Buffer, options: AnalyseA
   const correction = { ...base, strength: options.strength ?? base.strength };
   const render = await renderFromFull(full, correction, options, small);
   return { ...render, probe, analysis, correction };
+}
+
+export interface ReviewCopiesOptions {
+  /** Long sides of the small JPEGs at most; the preview is the analysis copy itself when that is smaller ({@link reviewCopySide}). */
+  previews: { preview?: number; thumbnail?: number };
+  limits?: Partial<ScanLimits>;
+}
+
+export interface ReviewCopiesResult {
+  probe: ScanProbe;
+  analysis: Analysis;
+  /** The proposed correction, which the corrected small copies show. */
+  correction: Correction;
+  previews: { original: PreviewSet; corrected: PreviewSet };
+}
+
+/**
+ * Everything a print needs to be reviewed, without its full-resolution render: the analysis and
+ * proposal measured on a shrink-on-load decode (a JPEG is decoded at half scale or less, never at
+ * full size), and the small JPEGs of the original and of the proposed correction from that same
+ * copy. The review compares these and, at 1:1, regions of the original corrected in the browser;
+ * the full-resolution corrected JPEG is {@link renderCorrected}'s work, made afterwards.
+ * @throws {ScanRejected}
+ */
+export async function analyseForReview(input: string | Buffer, options: ReviewCopiesOptions): Promise<ReviewCopiesResult> {
+  const file = await asBuffer(input);
+  const probe = await probeScan(file, options.limits);
+  const side = reviewCopySide(Math.max(probe.width, probe.height), probe.format);
+  // a linear filter for what the decoder's own shrink leaves, as deriveReduced uses for the same copy
+  const small = await decodeReduced(file, probe, side, 'linear');
+  const analysis = analysePixels(small);
+  const correction = analysis.proposed;
+  const previews = await smallCopies(small, correction, options.previews);
+  return { probe, analysis, correction, previews };
 }

@@ -23,10 +23,10 @@ export async function createApiToken(userId: string, name: string): Promise<{ to
 /** The user a bearer token belongs to, or null when it is unknown or revoked. */
 export async function userForToken(token: string): Promise<{ user: User; tokenId: string } | null> {
   if (!token.startsWith(TOKEN_PREFIX) || token.length > 100) return null;
-  const record = await ApiToken.findOne({ where: { tokenHash: hashToken(token), revokedAt: null } });
+  // the token and its user in one query: every scripted upload asks
+  const record = (await ApiToken.findOne({ where: { tokenHash: hashToken(token), revokedAt: null }, include: [{ model: User, as: 'user', required: true }] })) as (ApiToken & { user: User }) | null;
   if (!record) return null;
-  const user = await User.findByPk(record.userId);
-  if (!user) return null;
+  const user = record.user;
   // Touch last-used at most once a minute to keep scripted ingest from writing on every call.
   if (!record.lastUsedAt || Date.now() - record.lastUsedAt.getTime() > 60_000) {
     await record.update({ lastUsedAt: new Date() });

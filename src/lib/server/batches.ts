@@ -43,14 +43,16 @@ function checkDate(value: string | undefined, field: string): string | null {
 export async function stateCounts(batchIds: string[]): Promise<Map<string, StateCounts>> {
   const out = new Map<string, StateCounts>(batchIds.map((id) => [id, emptyCounts()]));
   if (batchIds.length === 0) return out;
-  const rows = await db().query<{ batch_id: string; state: ItemState; n: string }>(
-    'SELECT batch_id, state, count(*) AS n FROM items WHERE batch_id IN (:ids) GROUP BY batch_id, state',
+  const rows = await db().query<{ batch_id: string; state: ItemState; n: string; full_size: string }>(
+    `SELECT batch_id, state, count(*) AS n, count(*) FILTER (WHERE state = 'ready' AND render_version >= current_version) AS full_size
+       FROM items WHERE batch_id IN (:ids) GROUP BY batch_id, state`,
     { replacements: { ids: batchIds }, type: QueryTypes.SELECT },
   );
   for (const r of rows) {
     const c = out.get(r.batch_id)!;
     if ((ITEM_STATES as readonly string[]).includes(r.state)) c[r.state] = Number(r.n);
     c.total += Number(r.n);
+    c.fullSize += Number(r.full_size);
   }
   return out;
 }

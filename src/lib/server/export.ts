@@ -19,6 +19,7 @@ import { requireArchiveRole, requireCurrentArchive, requireUser } from './access
 import { recordAudit } from './audit.ts';
 import { ZipBagWriter, zipBagSource } from './bag-files.ts';
 import { peopleOf } from './captions.ts';
+import { currentRenderKey } from './renders.ts';
 import { config } from './config.ts';
 import { Conflict, InvalidInput, NotFound } from './errors.ts';
 import { linkMail, sendMail } from './mailer.ts';
@@ -73,21 +74,22 @@ export async function resolveSelection(archiveId: string, selection: ExportSelec
   const order: [string, string][] = [['batchId', 'ASC'], ['seq', 'ASC']];
   if (selection.kind === 'items') {
     const ids = [...new Set(selection.itemIds.map((i) => i.toLowerCase()))];
-    const items = await Item.findAll({ where: { id: { [Op.in]: ids }, archiveId }, attributes: ['id', 'renderKey', 'seq', 'batchId'], order });
+    const items = await Item.findAll({ where: { id: { [Op.in]: ids }, archiveId }, attributes: ['id', 'currentVersion', 'seq', 'batchId'], order });
     const missing = ids.filter((id) => !items.some((i) => i.id === id));
     if (missing.length) throw new InvalidInput('Some of the chosen prints are not in this archive.', { 'selection.itemIds': `Unknown: ${missing.slice(0, 5).join(', ')}` });
-    const unrendered = items.filter((i) => !i.renderKey);
-    if (unrendered.length) throw new Conflict(`${unrendered.length} of the chosen prints have no corrected image yet; wait for their analysis to finish.`, 'not_ready');
+    // the export renders any print whose full-size corrected image is not made yet; it needs a correction to render
+    const unanalysed = items.filter((i) => !i.currentVersion);
+    if (unanalysed.length) throw new Conflict(`${unanalysed.length} of the chosen prints have no correction yet; wait for their analysis to finish.`, 'not_ready');
     return items.map((i) => i.id);
   }
   if (selection.kind === 'batch') {
     const batch = await Batch.findOne({ where: { id: selection.batchId, archiveId } });
     if (!batch) throw new NotFound('That batch');
-    const items = await Item.findAll({ where: { batchId: batch.id, decision: { [Op.in]: [...ACCEPTED] }, renderKey: { [Op.ne]: null } }, attributes: ['id'], order });
+    const items = await Item.findAll({ where: { batchId: batch.id, decision: { [Op.in]: [...ACCEPTED] }, currentVersion: { [Op.ne]: null } }, attributes: ['id'], order });
     return items.map((i) => i.id);
   }
   const since = await lastExportStart(archiveId);
-  const where: Record<string | symbol, unknown> = { archiveId, decision: { [Op.in]: [...ACCEPTED] }, renderKey: { [Op.ne]: null } };
+  const where: Record<string | symbol, unknown> = { archiveId, decision: { [Op.in]: [...ACCEPTED] }, currentVersion: { [Op.ne]: null } };
   if (since) where[Op.or] = [{ decidedAt: { [Op.gt]: since } }, { metadataUpdatedAt: { [Op.gt]: since } }];
   const items = await Item.findAll({ where, attributes: ['id'], order });
   return items.map((i) => i.id);
@@ -266,8 +268,9 @@ export async function runExport(exportId: string): Promise<void> {
       };
       const encode = (id: string | undefined): Promise<Buffer | null> => {
         const it = id ? byId.get(id) : undefined;
-        if (!it?.renderKey) return Promise.resolve(null);
-        const p = store.localPath(it.renderKey).then((file) => embeddedJpeg(file, metaOf(it)));
+        if (!it?.currentVersion) return Promise.resolve(null);
+        // a print whose full-size render has not been made yet (or is of an older version) is rendered here first
+        const p = currentRenderKey(it).then(async (key) => (key ? embeddedJpeg(await store.localPath(key), metaOf(it)) : null));
         // Awaited in turn below; marked handled now so a failure while the zip is busy cannot crash the worker.
         p.catch(() => undefined);
         return p;
@@ -279,7 +282,7 @@ export async function runExport(exportId: string): Promise<void> {
         const jpeg = await upcoming;
         upcoming = encode(ids[k + 1]);
         done++;
-        if (!item || !item.renderKey || !jpeg) continue;
+        if (!item || !jpeg) continue;
         const batch = batches.get(item.batchId);
         const original = originals.get(item.originalId) ?? null;
         const printOriginal = item.printOriginalId ? (originals.get(item.printOriginalId) ?? null) : null;

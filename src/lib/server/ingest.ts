@@ -9,6 +9,7 @@ import { createHash, randomUUID } from 'node:crypto';
 import { open } from 'node:fs/promises';
 import type { Readable } from 'node:stream';
 import ExifReader from 'exifreader';
+import { QueryTypes, literal } from 'sequelize';
 import { Batch, Item, Original, db } from '../../../db/index.ts';
 import { probeScan, ScanRejected, type ScanProbe } from '../restoration/imaging.ts';
 import type { UploadLimits, UploadOutcome } from '../batches/schemas.ts';
@@ -164,11 +165,22 @@ export async function storeScanOriginal(input: Omit<IngestInput, 'batchId'>): Pr
     // linked, not copied: the staged file becomes the original (its hash checked again on the way)
     const blob = await store.linkContentAddressed('originals', stageKey, sha256, { ext: format.ext });
     const exif = await readScanExif(stagePath, probe);
-    const [original, created] = await Original.findOrCreate({
-      where: { archiveId: input.archiveId, sha256 },
-      defaults: { archiveId: input.archiveId, sha256, storageKey: blob.key, bytes: blob.bytes, mime: format.mime, width: probe.width, height: probe.height, exif, createdBy: input.userId },
-    });
-    return { original, sha256, probe, created };
+    // One statement: a concurrent upload of the same bytes may have made the row since the look above.
+    const [inserted] = await db().query<Original>(
+      `INSERT INTO originals (id, archive_id, sha256, storage_key, bytes, mime, width, height, exif, created_by, created_at)
+       VALUES (gen_random_uuid(), :archiveId, :sha256, :storageKey, :bytes, :mime, :width, :height, :exif::jsonb, :createdBy, now())
+       ON CONFLICT (archive_id, sha256) DO NOTHING RETURNING *`,
+      {
+        replacements: { archiveId: input.archiveId, sha256, storageKey: blob.key, bytes: blob.bytes, mime: format.mime, width: probe.width, height: probe.height, exif: JSON.stringify(exif), createdBy: input.userId ?? null },
+        type: QueryTypes.SELECT,
+        model: Original,
+        mapToModel: true,
+      },
+    );
+    if (inserted) return { original: inserted, sha256, probe, created: true };
+    const found = await Original.findOne({ where: { archiveId: input.archiveId, sha256 } });
+    if (!found) throw new Error(`the original ${sha256} was neither stored nor found`);
+    return { original: found, sha256, probe, created: false };
   } finally {
     await store.remove(stageKey).catch(() => undefined);
   }
@@ -188,15 +200,15 @@ export async function ingestScan(input: IngestInput): Promise<UploadOutcome> {
   const result = await db().transaction(async (transaction) => {
     // The batch row is the lock that hands out sequence numbers one at a time and lets
     // concurrent uploads of the same file meet here.
-    await Batch.findByPk(input.batchId, { transaction, lock: transaction.LOCK.UPDATE });
-    const inThisBatch = await Item.findOne({ where: { batchId: input.batchId, originalId }, transaction });
-    if (inThisBatch) return { kind: 'duplicate' as const, item: inThisBatch };
-    const elsewhere = await Item.findOne({
+    // The lock first: a statement that waited for it sees the items committed meanwhile.
+    await Batch.findByPk(input.batchId, { transaction, lock: transaction.LOCK.UPDATE, attributes: ['id'] });
+    // The item that already holds these bytes: the one in this batch, else the archive's first.
+    const holder = await Item.findOne({
       where: { archiveId: input.archiveId, originalId },
-      order: [['createdAt', 'ASC']],
+      order: [[literal(`(batch_id = ${db().escape(input.batchId)})`), 'DESC'], ['createdAt', 'ASC']],
       transaction,
     });
-    if (elsewhere) return { kind: 'duplicate' as const, item: elsewhere };
+    if (holder) return { kind: 'duplicate' as const, item: holder };
     const seq = ((await Item.max<number, Item>('seq', { where: { batchId: input.batchId }, transaction })) ?? 0) + 1;
     const item = await Item.create({ archiveId: input.archiveId, batchId: input.batchId, originalId, seq, originalName: name }, { transaction });
     await recordAudit(

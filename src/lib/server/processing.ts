@@ -4,16 +4,21 @@
  * knows the same queue behaviour (retries with backoff, the dead-letter queue, expiry).
  */
 import type PgBoss from 'pg-boss';
+import { QueryTypes } from 'sequelize';
+import { db } from '../../../db/index.ts';
 import { ANALYSIS_SIDE } from '../restoration/imaging.ts';
 import { DEAD_LETTER_QUEUE, declareQueue, queue, type QueueSpec } from './queue.ts';
 
-/** Analyse one item: decode once, measure, propose, render the corrected JPEG and the previews. */
+/** Analyse one item: decode once, measure, propose, and make the small copies the review shows. */
 export const ANALYSE_QUEUE = declareQueue({
   name: 'analyse',
   options: { retryLimit: 4, retryDelay: 5, retryBackoff: true, expireInSeconds: 900, retentionDays: 7, deadLetter: DEAD_LETTER_QUEUE },
 });
 
-/** Render one correction version of an item at full resolution (after pooling or an operator's change). */
+/**
+ * Render one correction version of an item at full resolution: the corrected JPEG that downloads
+ * and exports use. Fed by jobs/render.ts once no scan waits for analysis, and at once for an operator's change.
+ */
 export const RENDER_QUEUE = declareQueue({
   name: 'render',
   options: { retryLimit: 4, retryDelay: 5, retryBackoff: true, expireInSeconds: 900, retentionDays: 7, deadLetter: DEAD_LETTER_QUEUE },
@@ -69,7 +74,34 @@ export async function enqueueAnalyse(itemId: string, pixels?: number | null): Pr
   await b.send(ANALYSE_QUEUE.name, { itemId } satisfies AnalyseJob, { expireInSeconds: leaseSeconds(pixels) });
 }
 
-/** Queues a full-resolution render of one correction version of an item. */
+/**
+ * Full-size renders wait while scans are coming in: the feeder (jobs/render.ts) sends them once
+ * nothing waits for analysis and no scan has arrived for this long, so the prints of a sitting
+ * reach "ready for review" first. A print ready for longer than RENDER_CATCH_UP_SECONDS is
+ * rendered even during a long sitting, a couple at a time.
+ */
+export const RENDER_QUIET_SECONDS = 3;
+export const RENDER_CATCH_UP_SECONDS = 60;
+
+/**
+ * Sends a render job for `version` of an item unless one was sent for it or a newer version
+ * already (render_queued_version), so the feeders of several workers and an operator's save
+ * send one job per version. Returns whether a job was sent.
+ */
+export async function requestRender(itemId: string, version: number): Promise<boolean> {
+  const rows = await db().query<{ pixels: string | null }>(
+    `UPDATE items i SET render_queued_version = :version, render_queued_at = now()
+       FROM originals o
+      WHERE i.id = :itemId AND o.id = i.original_id AND (i.render_queued_version IS NULL OR i.render_queued_version < :version)
+    RETURNING (o.width::bigint * o.height) AS pixels`,
+    { replacements: { itemId, version }, type: QueryTypes.SELECT },
+  );
+  if (rows.length === 0) return false;
+  await enqueueRender(itemId, version, rows[0].pixels === null ? null : Number(rows[0].pixels));
+  return true;
+}
+
+/** Queues a full-resolution render of one correction version of an item (use {@link requestRender}). */
 export async function enqueueRender(itemId: string, version: number, pixels?: number | null): Promise<void> {
   const b = await boss(RENDER_QUEUE);
   await b.send(RENDER_QUEUE.name, { itemId, version } satisfies RenderJob, { expireInSeconds: leaseSeconds(pixels) });
@@ -101,8 +133,8 @@ export const derivedKeys = {
 };
 
 /**
- * Long sides of the small copies made from the same decode as the render. The preview is the
- * engine's analysis copy itself, encoded: one reduction of the full pixels serves both.
+ * Long sides of the small copies made from the analysis decode. The preview is the engine's
+ * analysis copy itself, encoded: one reduction serves both.
  */
 export const PREVIEW_SIDE = ANALYSIS_SIDE;
 export const THUMBNAIL_SIDE = 360;

@@ -13,7 +13,7 @@ import { requireArchiveRole } from './access.ts';
 import { recordAudit } from './audit.ts';
 import { config } from './config.ts';
 import { AppError, Conflict, InvalidInput, NotFound } from './errors.ts';
-import { enqueueRender } from './processing.ts';
+import { requestRender } from './processing.ts';
 import { storage } from './storage.ts';
 import type { Role } from '../auth/roles.ts';
 import {
@@ -256,10 +256,9 @@ export async function bulkDecide(locals: App.Locals, batchId: string, input: Bul
   });
 }
 
-/** Queues a render of one correction version on the ingest pipeline's render queue (jobs/render.ts). */
+/** Queues a render of one correction version on the render queue (jobs/render.ts) at once: a person asked for it. */
 export async function queueRender(itemId: string, version: number): Promise<void> {
-  const original = await Item.findByPk(itemId, { attributes: ['originalId'] }).then((i) => (i ? Original.findByPk(i.originalId, { attributes: ['width', 'height'] }) : null));
-  await enqueueRender(itemId, version, original?.width && original.height ? original.width * original.height : null);
+  await requestRender(itemId, version);
 }
 
 async function addVersion(

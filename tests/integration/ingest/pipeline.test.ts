@@ -6,7 +6,8 @@ import { listOutbox } from '../../../src/lib/server/outbox.ts';
 import { storage } from '../../../src/lib/server/storage.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
 import { Client } from '../../support/http.ts';
-import { createBatch, generatedScans, sha256, upload, uploadAll, waitSettled } from '../../support/scans.ts';
+import { createBatch, generatedScans, sha256, upload, uploadAll, waitFullSize, waitSettled } from '../../support/scans.ts';
+import { RENDER_QUIET_SECONDS } from '../../../src/lib/server/processing.ts';
 
 let a: TestArchive;
 let other: TestArchive;
@@ -17,7 +18,7 @@ beforeAll(async () => {
 afterAll(() => closeDb());
 
 describe('batch ingest through the API', () => {
-  it('takes 40 generated scans to ready, each with an analysis and a full-size corrected image', async () => {
+  it('takes 40 generated scans to ready, each with an analysis and corrected copies, then makes their full-size corrected images', async () => {
     const editor = asToken(a.editor);
     const batchId = await createBatch(editor, 'Forty generated prints');
     const files = await generatedScans(40, 100);
@@ -40,10 +41,28 @@ describe('batch ingest through the API', () => {
       expect(it.state).toBe('ready');
       expect(it.analysis).toMatchObject({ fadeGrade: expect.any(String), proposed: { version: 1 } });
       expect(bySha.get(it.original.sha256)?.name).toBe(it.originalName);
-      expect(it.links.corrected).toBe(`/api/items/${it.id}/corrected`);
     }
+    // Ready for review means the corrected small copies exist: the preview of the proposal differs from the original's.
+    for (const it of items.body.items.filter((i: any) => i.analysis.fadeGrade !== 'none').slice(0, 3)) {
+      const corrected = await fetchBytes(editor, it.links.preview);
+      const original = await fetchBytes(editor, `${it.links.preview}?of=original`);
+      expect((await sharp(corrected.bytes).metadata()).format).toBe('jpeg');
+      expect(sha256(corrected.bytes)).not.toBe(sha256(original.bytes));
+    }
+
+    // The full-size corrected JPEGs follow, all of them.
+    await waitFullSize(editor, batchId, 40);
+    const rendered = (await editor.get(`/api/batches/${batchId}/items`)).body.items;
+    for (const it of rendered) expect(it.links.corrected).toBe(`/api/items/${it.id}/corrected`);
+    // None was started before every scan of the batch had its analysis and no scan had arrived for RENDER_QUIET_SECONDS.
+    const rows = await Item.findAll({ where: { batchId } });
+    const analysedAt = await Correction.max<Date, Correction>('createdAt', { where: { itemId: rows.map((i) => i.id), version: 1 } });
+    const lastArrival = Math.max(...rows.map((i) => i.createdAt.getTime()));
+    const firstRenderSent = Math.min(...rows.map((i) => i.renderQueuedAt!.getTime()));
+    expect(firstRenderSent).toBeGreaterThanOrEqual(new Date(analysedAt).getTime());
+    expect(firstRenderSent).toBeGreaterThanOrEqual(lastArrival + RENDER_QUIET_SECONDS * 1000 - 50);
     // Downloads: a sample, byte for byte for the original, a decodable JPEG of the same size for the render.
-    for (const it of items.body.items.slice(0, 5)) {
+    for (const it of rendered.slice(0, 5)) {
       const orig = await fetchBytes(editor, it.links.original);
       expect(orig.type).toBe('image/jpeg');
       expect(sha256(orig.bytes)).toBe(it.original.sha256);

@@ -8,7 +8,7 @@ import { Batch, closeDb, Item, Original } from '../../../db/index.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
 import { AWKWARD_NAMES, badCorpus, type CorpusFile } from '../../support/bad-corpus.ts';
 import { Client } from '../../support/http.ts';
-import { createBatch, generatedScans, upload, waitSettled } from '../../support/scans.ts';
+import { createBatch, generatedScans, upload, waitFullSize, waitSettled } from '../../support/scans.ts';
 
 let a: TestArchive;
 let corpus: CorpusFile[];
@@ -59,6 +59,8 @@ describe('bad input through the web upload', () => {
       expect(item.state, f.label).toBe('failed');
       if (f.expect.outcome === 'failed') expect(item.failureReason ?? '', f.label).toMatch(f.expect.reason);
     }
+    // every accepted scan gets its full-size corrected JPEG, of the right size
+    await waitFullSize(editor, batchId, accepted.length + 2);
     for (const f of accepted) {
       const item = items.find((i) => i.originalName === f.name)!;
       const res = await fetch(`${process.env.APP_URL}/api/items/${item.id}/corrected`, { headers: { authorization: `Bearer ${a.editor.token}` } });

@@ -13,6 +13,6 @@ export const GET = apiRoute(async ({ locals, params, request, url }) => {
   const item = await itemForCaller(locals, idParam(params.id, 'That item'), 'viewer');
   const of = url.searchParams.get('of') ?? 'corrected';
   if (of !== 'corrected' && of !== 'original') throw new InvalidInput('of must be corrected or original.', { of: 'Unknown.' });
-  const key = of === 'original' || !item.renderVersion ? item.thumbKey : derivedKeys.renderThumbnail(item.id, item.renderVersion);
+  const key = of === 'original' || !item.previewVersion ? item.thumbKey : derivedKeys.renderThumbnail(item.id, item.previewVersion);
   return fileResponse(request, key, 'image/jpeg', withExtension(item.originalName, `-${of}-thumbnail.jpg`));
 });
