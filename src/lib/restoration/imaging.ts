@@ -88,9 +88,15 @@ function sniff(head: Buffer): ScanFormat | string {
 }
 
 const SNIFF_BYTES = 512;
+/**
+ * The head of a file read for its probe: JPEG and PNG headers (and the EXIF block, at most 64 KB
+ * in a JPEG) sit at the start. libvips asked for the metadata of a file path opens and seeks it
+ * once per image loader it tries (about 16 opens per scan); asked for a buffer of the head, none.
+ */
+const PROBE_HEAD_BYTES = 256 * 1024;
 
-async function headOf(input: string | Buffer): Promise<{ head: Buffer; bytes: number }> {
-  if (Buffer.isBuffer(input)) return { head: input.subarray(0, SNIFF_BYTES), bytes: input.length };
+async function headOf(input: string | Buffer, size = SNIFF_BYTES): Promise<{ head: Buffer; bytes: number }> {
+  if (Buffer.isBuffer(input)) return { head: input.subarray(0, size), bytes: input.length };
   let st;
   try {
     st = await stat(input);
@@ -100,7 +106,7 @@ async function headOf(input: string | Buffer): Promise<{ head: Buffer; bytes: nu
   if (!st.isFile()) throw new ScanRejected('unreadable', 'This is not a regular file.');
   const fh = await open(input, 'r');
   try {
-    const head = Buffer.alloc(Math.min(SNIFF_BYTES, st.size));
+    const head = Buffer.alloc(Math.min(size, st.size));
     await fh.read(head, 0, head.length, 0);
     return { head, bytes: st.size };
   } finally {
@@ -115,18 +121,34 @@ async function headOf(input: string | Buffer): Promise<{ head: Buffer; bytes: nu
  * @throws {ScanRejected}
  */
 export async function probeScan(input: string | Buffer, limits: Partial<ScanLimits> = {}): Promise<ScanProbe> {
+  return (await probeWithHead(input, limits)).probe;
+}
+
+/**
+ * {@link probeScan}, also handing back the head of the file it read (up to 256 KB; the whole
+ * file when it is smaller), where the caller looks for EXIF.
+ * @throws {ScanRejected}
+ */
+export async function probeWithHead(input: string | Buffer, limits: Partial<ScanLimits> = {}): Promise<{ probe: ScanProbe; head: Buffer }> {
   const lim = { ...DEFAULT_LIMITS, ...limits };
-  const { head, bytes } = await headOf(input);
+  const { head, bytes } = await headOf(input, PROBE_HEAD_BYTES);
   if (bytes === 0) throw new ScanRejected('empty', 'The file is empty (0 bytes).');
   if (bytes > lim.maxBytes) throw new ScanRejected('too_large', `The file is ${Math.round(bytes / 1048576)} MB; the limit is ${Math.round(lim.maxBytes / 1048576)} MB.`);
-  const kind = sniff(head);
+  const kind = sniff(head.subarray(0, SNIFF_BYTES));
   if (kind !== 'jpeg' && kind !== 'png' && kind !== 'tiff') {
     throw new ScanRejected('unsupported_type', `This is ${kind}, not a scan: only JPEG, PNG and TIFF images are taken.`);
   }
-  let meta: sharp.Metadata;
+  // header only: metadata() does not decode pixels, so a bomb is measured, not expanded
+  const metadata = (from: string | Buffer) => sharp(from, { limitInputPixels: false }).metadata();
+  let meta: sharp.Metadata | undefined;
+  if (typeof input === 'string' && kind !== 'tiff' && head.length < bytes) {
+    // a TIFF's directory may sit anywhere in the file; a JPEG or PNG header is in its head,
+    // unless a very large embedded profile pushes it further: then the file is asked
+    meta = await metadata(head).catch(() => undefined);
+    if (!meta?.width || !meta.height) meta = undefined;
+  }
   try {
-    // header only: metadata() does not decode pixels, so a bomb is measured, not expanded
-    meta = await sharp(input, { limitInputPixels: false }).metadata();
+    meta ??= await metadata(typeof input === 'string' && head.length === bytes ? head : input);
   } catch (err) {
     throw new ScanRejected('unreadable', `The ${kind.toUpperCase()} header is damaged and cannot be read.`, { cause: err });
   }
@@ -139,7 +161,7 @@ export async function probeScan(input: string | Buffer, limits: Partial<ScanLimi
   const orientation = meta.orientation ?? 1;
   const swap = orientation >= 5 && orientation <= 8;
   const sixteen = meta.depth === 'ushort' || meta.space === 'rgb16' || meta.space === 'grey16';
-  return {
+  const probe: ScanProbe = {
     format: kind,
     width: swap ? h : w,
     height: swap ? w : h,
@@ -155,6 +177,7 @@ export async function probeScan(input: string | Buffer, limits: Partial<ScanLimi
     bytes,
     exif: meta.exif,
   };
+  return { probe, head };
 }
 
 function decodeError(err: unknown): ScanRejected {

@@ -11,7 +11,7 @@ import type { Readable } from 'node:stream';
 import ExifReader from 'exifreader';
 import { QueryTypes, literal } from 'sequelize';
 import { Batch, Item, Original, db } from '../../../db/index.ts';
-import { probeScan, ScanRejected, type ScanProbe } from '../restoration/imaging.ts';
+import { probeWithHead, ScanRejected, type ScanProbe } from '../restoration/imaging.ts';
 import type { UploadLimits, UploadOutcome } from '../batches/schemas.ts';
 import { recordAudit } from './audit.ts';
 import { config } from './config.ts';
@@ -70,14 +70,19 @@ const EXIF_HEAD_BYTES = 512 * 1024;
  * resolution, device and orientation. Read from the head of the file only (EXIF sits near the
  * start of JPEG, PNG and most TIFF files), so a large scan is not read twice into memory.
  */
-export async function readScanExif(path: string, probe: ScanProbe): Promise<Record<string, unknown>> {
-  const fh = await open(path, 'r');
+export async function readScanExif(path: string, probe: ScanProbe, probedHead?: Buffer): Promise<Record<string, unknown>> {
   let head: Buffer;
-  try {
-    head = Buffer.alloc(Math.min(EXIF_HEAD_BYTES, probe.bytes));
-    await fh.read(head, 0, head.length, 0);
-  } finally {
-    await fh.close();
+  if (probedHead && (probedHead.length >= EXIF_HEAD_BYTES || probedHead.length === probe.bytes || probe.format === 'jpeg')) {
+    // the probe's head holds a JPEG's EXIF (one APP1 segment of at most 64 KB, near the start)
+    head = probedHead;
+  } else {
+    const fh = await open(path, 'r');
+    try {
+      head = Buffer.alloc(Math.min(EXIF_HEAD_BYTES, probe.bytes));
+      await fh.read(head, 0, head.length, 0);
+    } finally {
+      await fh.close();
+    }
   }
   let tags: Record<string, { description?: string; value?: unknown } | undefined> = {};
   try {
@@ -158,13 +163,13 @@ export async function storeScanOriginal(input: Omit<IngestInput, 'batchId'>): Pr
     if (meter.bytes === 0) throw new ScanRejected('empty', 'The file is empty (0 bytes).');
     const sha256 = meter.hash.digest('hex');
     const stagePath = await store.localPath(stageKey);
-    const probe = await probeScan(stagePath, { maxBytes: limits.maxBytes, maxPixels: limits.maxPixels });
+    const { probe, head } = await probeWithHead(stagePath, { maxBytes: limits.maxBytes, maxPixels: limits.maxPixels });
     const existing = await Original.findOne({ where: { archiveId: input.archiveId, sha256 } });
     if (existing) return { original: existing, sha256, probe, created: false };
     const format = FORMAT_FILE[probe.format];
     // linked, not copied: the staged file becomes the original (its hash checked again on the way)
     const blob = await store.linkContentAddressed('originals', stageKey, sha256, { ext: format.ext });
-    const exif = await readScanExif(stagePath, probe);
+    const exif = await readScanExif(stagePath, probe, head);
     // One statement: a concurrent upload of the same bytes may have made the row since the look above.
     const [inserted] = await db().query<Original>(
       `INSERT INTO originals (id, archive_id, sha256, storage_key, bytes, mime, width, height, exif, created_by, created_at)
