@@ -54,7 +54,8 @@ async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<voi
   const started = performance.now();
   try {
     const path = await store.localPath(claimed.storage_key);
-    const result = await engine.analyseForReview(path, { previews: { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE }, limits: uploadLimits() });
+    // the original's preview is made on demand (api/items/:id/preview?of=original): nothing shows it by default
+    const result = await engine.analyseForReview(path, { previews: { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE, originalThumbnailOnly: true }, limits: uploadLimits() });
     // The next free version: 1 for a new print, later for a print whose scan was replaced
     // (a rescan from the negative). A re-run before the commit below computes the same number
     // and overwrites the same files; after the commit the item is ready and the run stops above.
@@ -63,7 +64,7 @@ async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<voi
     const engineDone = performance.now();
     const { original, corrected } = result.previews;
     await Promise.all([
-      store.put(keys.preview, original.preview!),
+      original.preview ? store.put(keys.preview, original.preview) : undefined,
       store.put(keys.thumbnail, original.thumbnail!),
       store.put(derivedKeys.renderPreview(item.id, version), corrected.preview!),
       store.put(derivedKeys.renderThumbnail(item.id, version), corrected.thumbnail!),
@@ -91,7 +92,7 @@ async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<voi
             analysis: JSON.stringify(result.analysis),
             grade: result.analysis.fadeGrade,
             thumb: keys.thumbnail,
-            preview: keys.preview,
+            preview: original.preview ? keys.preview : null,
             params: JSON.stringify(result.correction),
           },
         },

@@ -334,9 +334,10 @@ export interface RenderOptions {
   maxSide?: number;
   /**
    * Also make small JPEGs of the original and the corrected image from the same decode.
-   * `correctedOnly` leaves out the original's (a re-render, whose original's copies exist).
+   * `correctedOnly` leaves out the original's (a re-render, whose original's copies exist);
+   * `originalThumbnailOnly` makes only the thumbnail of the original (its preview is made on demand).
    */
-  previews?: { thumbnail?: number; preview?: number; correctedOnly?: boolean };
+  previews?: { thumbnail?: number; preview?: number; correctedOnly?: boolean; originalThumbnailOnly?: boolean };
 }
 
 export interface PreviewSet {
@@ -479,7 +480,9 @@ async function smallCopies(reduced: ReducedPixels, c: Correction, sizes: RenderO
   const smallLuts = isIdentity(c) ? undefined : (luts ?? buildChannelLuts(c, 8, 8));
   const correctedSmall: ReducedPixels = smallLuts ? { ...reduced, data: applyCorrection(reduced.data, reduced.channels, smallLuts) as Uint8Array, depth: 8 } : reduced;
   const wantOriginal = !sizes?.correctedOnly;
-  const [original, correctedSet] = await Promise.all([wantOriginal || !smallLuts ? previewSet(reduced, sizes) : {}, smallLuts ? previewSet(correctedSmall, sizes) : undefined]);
+  // an unfaded print's corrected copies are the original's: then both of the original's are made
+  const originalSizes = sizes?.originalThumbnailOnly && smallLuts ? { thumbnail: sizes.thumbnail } : sizes;
+  const [original, correctedSet] = await Promise.all([wantOriginal || !smallLuts ? previewSet(reduced, originalSizes) : {}, smallLuts ? previewSet(correctedSmall, sizes) : undefined]);
   return { original: wantOriginal ? original : {}, corrected: correctedSet ?? original };
 }
 
@@ -547,7 +550,7 @@ export interface AnalyseAndRenderOptions extends RenderOptions {
   strength?: number;
   /** Use this correction instead of the proposed one (e.g. pooled across a batch). */
   correction?: Correction;
-  /** Long side of the analysis copy, default {@link ANALYSIS_SIDE}. */
+  /** Long side of the analysis copy, default {@link reviewCopySide} of the scan. */
   analysisSide?: number;
   limits?: Partial<ScanLimits>;
 }
@@ -570,7 +573,8 @@ export async function analyseAndRender(input: string | Buffer, options: AnalyseA
   const file = await asBuffer(input);
   const probe = await probeScan(file, options.limits);
   const full = await loadFull(file, options.limits, probe);
-  const analysisSide = options.analysisSide ?? ANALYSIS_SIDE;
+  // the same size of copy as the analyse job measures (reviewCopySide), so both propose alike
+  const analysisSide = options.analysisSide ?? reviewCopySide(Math.max(probe.width, probe.height), probe.format);
   const previewSide = options.maxSide ? 0 : smallSide(options.previews);
   // With previews, one filtered small copy serves the analysis and the previews. Without, the
   // analysis measures a point sample of the decode, which costs a third as much; its histograms
@@ -586,7 +590,7 @@ export async function analyseAndRender(input: string | Buffer, options: AnalyseA
 
 export interface ReviewCopiesOptions {
   /** Long sides of the small JPEGs at most; the preview is the analysis copy itself when that is smaller ({@link reviewCopySide}). */
-  previews: { preview?: number; thumbnail?: number };
+  previews: { preview?: number; thumbnail?: number; originalThumbnailOnly?: boolean };
   limits?: Partial<ScanLimits>;
 }
 

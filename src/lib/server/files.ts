@@ -6,7 +6,7 @@ import { Readable } from 'node:stream';
 import { NotFound } from './errors.ts';
 import { storage } from './storage.ts';
 
-function disposition(kind: 'inline' | 'attachment', filename: string): string {
+export function disposition(kind: 'inline' | 'attachment', filename: string): string {
   const ascii = filename.replace(/[^\x20-\x7e]/g, '_').replace(/["\\]/g, '_');
   return `${kind}; filename="${ascii}"; filename*=UTF-8''${encodeURIComponent(filename)}`;
 }

@@ -1,18 +1,34 @@
 import { idParam } from '../../../../lib/server/access.ts';
 import { itemForCaller } from '../../../../lib/server/batches.ts';
 import { InvalidInput } from '../../../../lib/server/errors.ts';
-import { fileResponse, withExtension } from '../../../../lib/server/files.ts';
+import { disposition, fileResponse, withExtension } from '../../../../lib/server/files.ts';
 import { apiRoute } from '../../../../lib/server/http.ts';
 import { derivedKeys } from '../../../../lib/server/processing.ts';
+import { cropImage } from '../../../../lib/server/review.ts';
+import { cropQuery } from '../../../../lib/review/schemas.ts';
+import { reviewCopySide } from '../../../../lib/restoration/imaging.ts';
+import { Original } from '../../../../../db/index.ts';
 
 /**
- * A screen-sized JPEG (1280 px on the long side: the engine's analysis copy) of the item: `?of=corrected` (the default: the newest rendered
- * correction) or `?of=original` (the scan as it is, for correcting in the browser).
+ * A screen-sized JPEG of the item (the engine's review copy: 900 to 1280 px on the long side):
+ * `?of=corrected` (the default: the newest correction whose small copies are made) or
+ * `?of=original` (the scan as it is). The original's is made from the scan on demand when it was
+ * not stored (the analyse job stores only its thumbnail).
  */
 export const GET = apiRoute(async ({ locals, params, request, url }) => {
   const item = await itemForCaller(locals, idParam(params.id, 'That item'), 'viewer');
   const of = url.searchParams.get('of') ?? 'corrected';
   if (of !== 'corrected' && of !== 'original') throw new InvalidInput('of must be corrected or original.', { of: 'Unknown.' });
+  const name = withExtension(item.originalName, `-${of}-preview.jpg`);
+  if ((of === 'original' || !item.previewVersion) && !item.previewKey && item.state === 'ready') {
+    const original = await Original.findByPk(item.originalId, { attributes: ['width', 'height', 'mime'] });
+    const side = reviewCopySide(Math.max(original?.width ?? 0, original?.height ?? 0), original?.mime === 'image/jpeg' ? 'jpeg' : 'png');
+    const { body } = await cropImage(item, cropQuery.parse({ of: 'original', max: String(side) }));
+    return new Response(new Uint8Array(body), {
+      status: 200,
+      headers: { 'content-type': 'image/jpeg', 'content-length': String(body.length), 'cache-control': 'private, max-age=86400, immutable', 'content-disposition': disposition('inline', name) },
+    });
+  }
   const key = of === 'original' || !item.previewVersion ? item.previewKey : derivedKeys.renderPreview(item.id, item.previewVersion);
-  return fileResponse(request, key, 'image/jpeg', withExtension(item.originalName, `-${of}-preview.jpg`));
+  return fileResponse(request, key, 'image/jpeg', name);
 });
