@@ -6,7 +6,8 @@ import { promisify } from 'node:util';
 import ExifReader from 'exifreader';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import yauzl from 'yauzl';
-import { closeDb } from '../../../db/index.ts';
+import sharp from 'sharp';
+import { Item, closeDb } from '../../../db/index.ts';
 import { listOutbox } from '../../../src/lib/server/outbox.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
 import { batchWithPrints, decide, downloadBytes, sha256, waitExport } from './helpers.ts';
@@ -208,4 +209,25 @@ describe('who may export', () => {
     expect(mails.length).toBeGreaterThanOrEqual(1);
     expect(mails[0].text).toMatch(/\/export#export-/);
   });
+});
+
+describe('an export of a print whose full-size render is not made yet', () => {
+  it('renders the print itself, at full size, and keeps the render for the next time', async () => {
+    const editor = asToken(a.editor);
+    const id = itemIds[2];
+    // As a print is between "ready" and its render (jobs/render.ts feeds renders once nothing waits for analysis).
+    await Item.update({ renderKey: null, renderVersion: null }, { where: { id } });
+    const r = await editor.post('/api/exports', { selection: { kind: 'items', itemIds: [id] } });
+    expect(r.status).toBe(202);
+    const done = await waitExport(editor, r.headers.get('location')!);
+    expect(done).toMatchObject({ state: 'ready', verified: true, items: 1 });
+    const bag = await unzip((await downloadBytes(editor, done.downloadUrl)).bytes);
+    const photos = [...bag.entries()].filter(([k]) => k.includes('/data/photos/'));
+    expect(photos).toHaveLength(1);
+    const meta = await sharp(photos[0][1]).metadata();
+    expect([meta.format, meta.width, meta.height]).toEqual(['jpeg', 600, 400]);
+    const item = await Item.findByPk(id);
+    expect(item!.renderVersion).toBe(item!.currentVersion);
+    expect(item!.renderKey).toBeTruthy();
+  }, 120_000);
 });
