@@ -23,7 +23,7 @@ import { queue } from '../src/lib/server/queue.ts';
 import { storage } from '../src/lib/server/storage.ts';
 import { removeStaleTemporaries } from '../src/lib/server/stale-files.ts';
 import { config } from '../src/lib/server/config.ts';
-import { eachAtMost } from './each-at-most.ts';
+import { eachAtMost, oneAtATime } from './each-at-most.ts';
 import { enginePool } from './engine-pool.ts';
 import type { JobHandler } from './registry.ts';
 
@@ -147,16 +147,7 @@ async function sweep(): Promise<void> {
   }
 }
 
-let sweeping = false;
-setInterval(() => {
-  if (sweeping) return;
-  sweeping = true;
-  sweep()
-    .catch((err) => console.error('[analyse] sweep failed:', err))
-    .finally(() => {
-      sweeping = false;
-    });
-}, SWEEP_SECONDS * 1000).unref();
+setInterval(oneAtATime('analyse: sweep', sweep), SWEEP_SECONDS * 1000).unref();
 
 /**
  * Two images at a time on two cores (WORKER_CONCURRENCY), each on an engine thread of its own:

@@ -9,3 +9,17 @@ export async function eachAtMost<T>(items: T[], limit: number, fn: (item: T) => 
     }),
   );
 }
+
+/** A call of `fn` that is skipped while the previous one still runs; failures are logged under `label`. */
+export function oneAtATime(label: string, fn: () => Promise<unknown>): () => void {
+  let running = false;
+  return () => {
+    if (running) return;
+    running = true;
+    fn()
+      .catch((err) => console.error(`[${label}] failed:`, err))
+      .finally(() => {
+        running = false;
+      });
+  };
+}

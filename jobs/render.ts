@@ -13,7 +13,7 @@ import { RENDER_CATCH_UP_SECONDS, RENDER_QUEUE, RENDER_QUIET_SECONDS, requestRen
 import { renderItemVersion } from '../src/lib/server/renders.ts';
 import { config } from '../src/lib/server/config.ts';
 import { queue } from '../src/lib/server/queue.ts';
-import { eachAtMost } from './each-at-most.ts';
+import { eachAtMost, oneAtATime } from './each-at-most.ts';
 import { enginePool } from './engine-pool.ts';
 import { wakeLoops } from './loops.ts';
 import type { JobHandler } from './registry.ts';
@@ -63,16 +63,7 @@ export async function feedRenders(): Promise<number> {
   return sent;
 }
 
-let feeding = false;
-function feedSoon(): void {
-  if (feeding) return;
-  feeding = true;
-  feedRenders()
-    .catch((err) => console.error('[render] feeding the queue failed:', err))
-    .finally(() => {
-      feeding = false;
-    });
-}
+const feedSoon = oneAtATime('render: feeding the queue', feedRenders);
 
 let feeder: NodeJS.Timeout | undefined;
 /** Starts the feeder of this worker (jobs/worker.ts). */

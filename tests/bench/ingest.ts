@@ -243,9 +243,17 @@ try {
 
   // On until every ready print has its full-size corrected JPEG.
   let fullSize = 0;
+  const renderQuarters = new Set<number>();
   for (;;) {
     const c = (await stateCounts([batchId])).get(batchId)!;
     fullSize = c.fullSize;
+    for (const q of [1, 2, 3, 4]) {
+      if (!renderQuarters.has(q) && fullSize >= (c.ready * q) / 4) {
+        renderQuarters.add(q);
+        const m = { server: memory(serverPid), worker: memory(workerPid) };
+        console.log(`${String(fullSize).padStart(3)} of ${c.ready} rendered at ${((performance.now() - t0) / 1000).toFixed(1).padStart(5)} s: server ${m.server.rss.toFixed(0)} MB, worker ${m.worker.rss.toFixed(0)} MB resident`);
+      }
+    }
     if (fullSize >= c.ready) break;
     if (performance.now() - t0 > 30 * 60 * 1000) throw new Error(`gave up on the renders after 30 minutes: ${JSON.stringify(c)}`);
     await new Promise((r) => setTimeout(r, 100));

@@ -9,7 +9,7 @@ import { describe, expect, it } from 'vitest';
 import sharp from 'sharp';
 import { ANALYSIS_MIN_SIDE, ANALYSIS_SIDE, analyseForReview, loadReduced, renderCorrected, reviewCopySide } from '../../../src/lib/restoration/imaging';
 import { analysePixels } from '../../../src/lib/restoration/analysis';
-import { deltaE2000, srgbToLab } from '../../../src/lib/restoration/colour';
+import { meanDeltaE } from '../../support/delta-e.ts';
 import { AGEING_MODELS, agePixels, encodeScene, generateScene } from '../../../src/lib/demo/synthetic';
 
 describe('the size of the review copy', () => {
@@ -35,15 +35,6 @@ async function reduced(input: Buffer, raw?: { width: number; height: number }): 
   return img.resize(600, 400, { kernel: 'linear' }).raw().toBuffer();
 }
 
-function meanDeltaE(a: Buffer, b: Buffer): number {
-  let sum = 0;
-  let n = 0;
-  for (let i = 0; i < a.length; i += 3 * 5) {
-    sum += deltaE2000(srgbToLab([a[i] / 255, a[i + 1] / 255, a[i + 2] / 255]), srgbToLab([b[i] / 255, b[i + 1] / 255, b[i + 2] / 255]));
-    n++;
-  }
-  return sum / n;
-}
 
 describe('measuring a 3600 x 2400 scan on its review copy', () => {
   const cases = [

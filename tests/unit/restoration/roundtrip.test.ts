@@ -7,20 +7,12 @@ import { afterAll, describe, expect, it } from 'vitest';
 import sharp from 'sharp';
 import { AGEING_MODELS, agePixels, encodeScene, generateScene, type Ageing } from '../../../src/lib/demo/synthetic';
 import { analyseAndRender } from '../../../src/lib/restoration/imaging';
-import { deltaE2000, srgbToLab } from '../../../src/lib/restoration/colour';
+import { srgbToLab } from '../../../src/lib/restoration/colour';
+import { meanDeltaE } from '../../support/delta-e.ts';
 
 const W = 600;
 const H = 400;
 
-function meanDeltaE(a: Uint8Array, b: Uint8Array): number {
-  let sum = 0;
-  let n = 0;
-  for (let i = 0; i < a.length; i += 3 * 5) {
-    sum += deltaE2000(srgbToLab([a[i] / 255, a[i + 1] / 255, a[i + 2] / 255]), srgbToLab([b[i] / 255, b[i + 1] / 255, b[i + 2] / 255]));
-    n++;
-  }
-  return sum / n;
-}
 
 /** Baseline (common practice): stretch each channel so its 0.5th and 99.5th percentiles reach 0 and 255. */
 function percentileStretch(data: Uint8Array): Uint8Array {
