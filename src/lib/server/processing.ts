@@ -80,7 +80,7 @@ export async function enqueueAnalyse(itemId: string, pixels?: number | null): Pr
  * reach "ready for review" first. A print ready for longer than RENDER_CATCH_UP_SECONDS is
  * rendered even during a long sitting, a couple at a time.
  */
-export const RENDER_QUIET_SECONDS = 3;
+export const RENDER_QUIET_SECONDS = 2;
 export const RENDER_CATCH_UP_SECONDS = 60;
 
 /**

@@ -20,8 +20,8 @@ export type RenderOutcome = 'rendered' | 'done already' | 'superseded' | 'gone' 
 
 /**
  * Renders `version` of an item unless it is rendered already or a newer version has superseded it
- * (that one has a job of its own). Writes the render and the version's small copies, then points
- * the item at them. A scan that no longer decodes keeps its earlier render ('unreadable').
+ * (that one has a job of its own). Writes the render and, unless they exist, the version's small
+ * copies, then points the item at them. A scan that no longer decodes keeps its earlier render ('unreadable').
  */
 export async function renderItemVersion(itemId: string, version: number, renderer: Renderer = renderCorrected): Promise<RenderOutcome> {
   const item = (await Item.findByPk(itemId, { include: [{ model: Original, as: 'original' }] })) as (Item & { original: Original }) | null;
@@ -32,17 +32,19 @@ export async function renderItemVersion(itemId: string, version: number, rendere
 
   const store = storage();
   const key = derivedKeys.render(itemId, version);
+  // the analyse job made the small copies of its proposal already; later versions get theirs here
+  const smallCopiesMade = (item.previewVersion ?? 0) >= version;
   try {
     const result = await renderer(
       await store.localPath(item.original.storageKey),
       correctionSchema.parse(correction.params),
-      { previews: { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE, correctedOnly: true } },
+      smallCopiesMade ? {} : { previews: { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE, correctedOnly: true } },
       uploadLimits(),
     );
     await Promise.all([
       store.put(key, result.buffer),
-      store.put(derivedKeys.renderPreview(itemId, version), result.previews!.corrected.preview!),
-      store.put(derivedKeys.renderThumbnail(itemId, version), result.previews!.corrected.thumbnail!),
+      smallCopiesMade ? undefined : store.put(derivedKeys.renderPreview(itemId, version), result.previews!.corrected.preview!),
+      smallCopiesMade ? undefined : store.put(derivedKeys.renderThumbnail(itemId, version), result.previews!.corrected.thumbnail!),
     ]);
   } catch (err) {
     if (err instanceof ScanRejected) {
