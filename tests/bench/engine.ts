@@ -15,7 +15,7 @@ import { basename, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import sharp from 'sharp';
 import { AGEING_MODELS, agePixels, encodeScene, generateScene, type Ageing } from '../../src/lib/demo/synthetic';
-import { analyseScan, loadFull, loadReduced, deriveReduced, renderCorrected, analyseAndRender } from '../../src/lib/restoration/imaging';
+import { analyseForReview, analyseScan, loadFull, loadReduced, deriveReduced, renderCorrected, analyseAndRender, reviewCopySide } from '../../src/lib/restoration/imaging';
 import { analysePixels, samplePixels } from '../../src/lib/restoration/analysis';
 import { describeFloor, measureFloor } from './floor';
 
@@ -124,7 +124,9 @@ async function main(): Promise<void> {
   console.log('\nin process, one libvips thread, one scan at a time:');
   const bareStd = await perScan('bare decode -> JPEG q92, standard Huffman tables', (f) => sharp(f).jpeg({ quality: 92, optimiseCoding: false }).toBuffer());
   const decodeOnly = await perScan('full decode to raw (oriented, sRGB)', (_, b) => loadFull(b));
-  const shrink = await perScan('analysis copy by shrink-on-load decode', (_, b) => loadReduced(b, 1280));
+  const shrink = await perScan('analysis copy by shrink-on-load decode, 1280 px (1/2, then reduced)', (_, b) => loadReduced(b, 1280));
+  const reviewSide = reviewCopySide(Math.max(WIDTH, HEIGHT), 'jpeg');
+  await perScan(`the review copy by shrink-on-load decode, ${reviewSide} px (reviewCopySide)`, (_, b) => loadReduced(b, reviewSide));
   const full = await loadFull(readFileSync(files[0]));
   const derive = await perScan('analysis copy resized by libvips from the decode', () => deriveReduced(full, 1280));
   const sampled = await perScan('analysis copy point-sampled from the decode', async () => samplePixels(full, 1280));
@@ -135,7 +137,7 @@ async function main(): Promise<void> {
   let k = 0;
   const render = await perScan('renderCorrected (decode, correct, encode)', (_, b) => renderCorrected(b, corrections[k++ % files.length]));
   const both = await perScan('analyseAndRender (one decode for both)', (_, b) => analyseAndRender(b));
-  await perScan('  the same with 1280 px preview and thumbnail (the worker)', (_, b) => analyseAndRender(b, { previews: { preview: 1280, thumbnail: 360 } }));
+  await perScan('analyseForReview (the analyse job: review copy, analysis, small copies)', (_, b) => analyseForReview(b, { previews: { preview: 1280, thumbnail: 360, originalThumbnailOnly: true } }));
   const inProcessPeak = process.resourceUsage().maxRSS / 1024;
 
   // these run unpinned in this process, one libvips thread: compared with the bare run the same way
