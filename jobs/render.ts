@@ -21,8 +21,8 @@ import type { JobHandler } from './registry.ts';
 /** Render jobs kept waiting in the queue: enough for every polling loop of a couple of workers. */
 const WAITING_TARGET = 8;
 /**
- * A print marked as sent this long ago with no render job alive (a worker stopped between marking
- * and sending, or its job failed for good an hour or more ago) is sent again; looked for every LOST_EVERY_MS.
+ * A print marked as sent this long ago whose job is nowhere (its worker stopped between marking and
+ * sending) is sent again; looked for every LOST_EVERY_MS.
  */
 const LOST_AFTER = "interval '30 seconds'";
 const LOST_EVERY_MS = 15_000;
@@ -41,11 +41,14 @@ export async function feedRenders(): Promise<number> {
   if (room <= 0) return 0;
   if (Date.now() - lostLookedAt > LOST_EVERY_MS) {
     lostLookedAt = Date.now();
+    // a job that exists in any state is pg-boss's to retry or to have ended (a scan that no longer
+    // decodes ends its job without a render): only a version whose job was never sent goes again
+    const sentFor = (table: string) =>
+      `EXISTS (SELECT 1 FROM pgboss.${table} j WHERE j.name = :queue AND j.data->>'itemId' = i.id::text AND j.data->>'version' = i.render_queued_version::text)`;
     await db().query(
       `UPDATE items i SET render_queued_version = NULL
         WHERE i.render_queued_version > COALESCE(i.render_version, 0) AND i.render_queued_at < now() - ${LOST_AFTER}
-          AND NOT EXISTS (SELECT 1 FROM pgboss.job j WHERE j.name = :queue AND j.data->>'itemId' = i.id::text
-                           AND (j.state < 'completed' OR (j.state = 'failed' AND j.completed_on > now() - interval '1 hour')))`,
+          AND NOT ${sentFor('job')} AND NOT ${sentFor('archive')}`,
       { replacements: { queue: RENDER_QUEUE.name } },
     );
   }
