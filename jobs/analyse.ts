@@ -7,7 +7,7 @@
  */
 import type PgBoss from 'pg-boss';
 import { Op, QueryTypes } from 'sequelize';
-import { Correction, Item, Original, db } from '../db/index.ts';
+import { Correction, Item, db } from '../db/index.ts';
 import { ScanRejected } from '../src/lib/restoration/imaging.ts';
 import { uploadLimits } from '../src/lib/server/ingest.ts';
 import {

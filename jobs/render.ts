@@ -44,7 +44,8 @@ export async function feedRenders(): Promise<number> {
     // a job that exists in any state is pg-boss's to retry or to have ended (a scan that no longer
     // decodes ends its job without a render): only a version whose job was never sent goes again
     const sentFor = (table: string) =>
-      `EXISTS (SELECT 1 FROM pgboss.${table} j WHERE j.name = :queue AND j.data->>'itemId' = i.id::text AND j.data->>'version' = i.render_queued_version::text)`;
+      `EXISTS (SELECT 1 FROM pgboss.${table} j WHERE j.name = :queue AND j.data->>'itemId' = i.id::text
+                 AND j.data->>'version' = i.render_queued_version::text AND j.created_on >= i.render_queued_at)`;
     await db().query(
       `UPDATE items i SET render_queued_version = NULL
         WHERE i.render_queued_version > COALESCE(i.render_version, 0) AND i.render_queued_at < now() - ${LOST_AFTER}
