@@ -25,9 +25,11 @@ export const ANALYSIS_MIN_SIDE = 900;
 
 /**
  * Long side of the reduced copy of a scan that the analysis measures and the previews show.
- * A JPEG decodes at 1/2, 1/4 or 1/8 of its size for a fraction of a full decode (libjpeg's scaled
- * DCT; tests/bench/engine.ts prints the costs), so for a JPEG it is the smallest of those sizes that
- * keeps ANALYSIS_MIN_SIDE, reduced further to ANALYSIS_SIDE when larger: 900 px for a 6x4 in print
+ * A JPEG decodes at 1/4 or 1/8 of its size for a fraction of a full decode (libjpeg's scaled DCT;
+ * measured here on 3600 x 2400 scans: 23 ms at 1/4 against 32 ms whole; at 1/2 it was no cheaper,
+ * 42 ms, its scaled transform having no SIMD code; tests/bench/engine.ts prints the costs). For a
+ * JPEG it is the smallest of the 1/8, 1/4 and 1/2 sizes that keeps ANALYSIS_MIN_SIDE, reduced
+ * further to ANALYSIS_SIDE when larger: 900 px for a 6x4 in print
  * at 600 dpi (3600 px, 1/4) or 1200 dpi (7200 px, 1/8), 1200 px at 400 dpi (2400 px, 1/2), 1250 px
  * for a 5000 px scan (1/4). Other formats decode whole anyway: ANALYSIS_SIDE.
  * Never larger than the scan.
@@ -604,8 +606,9 @@ export interface ReviewCopiesResult {
 
 /**
  * Everything a print needs to be reviewed, without its full-resolution render: the analysis and
- * proposal measured on a shrink-on-load decode (a JPEG is decoded at half scale or less, never at
- * full size), and the small JPEGs of the original and of the proposed correction from that same
+ * proposal measured on the review copy ({@link reviewCopySide}: a JPEG of 1800 px or more is decoded
+ * at 1/2, 1/4 or 1/8 scale, a smaller one or another format whole and reduced), and the small JPEGs
+ * of the original and of the proposed correction from that same
  * copy. The review compares these and, at 1:1, regions of the original corrected in the browser;
  * the full-resolution corrected JPEG is {@link renderCorrected}'s work, made afterwards.
  * @throws {ScanRejected}
