@@ -214,6 +214,21 @@ interface BorderFind {
 }
 
 /**
+ * How many of `count` pixels, from index `start` in steps of `stride`, are within 12 codes of
+ * the paper colour in every channel: a row (stride one pixel) or a column (stride one row).
+ * The hot loops of the analysis are small functions of plain numbers and typed arrays, each
+ * optimised by V8 on its own as soon as it runs hot (a loop inside a long function is optimised
+ * before the code after it has run, and that code then throws the optimised version away).
+ */
+function paperInLine(v: Uint8Array, start: number, stride: number, count: number, p0: number, p1: number, p2: number): number {
+  let k = 0;
+  for (let n = 0, i = start; n < count; n++, i += stride) {
+    if (Math.abs(v[i] - p0) <= 12 && Math.abs(v[i + 1] - p1) <= 12 && Math.abs(v[i + 2] - p2) <= 12) k++;
+  }
+  return k;
+}
+
+/**
  * Looks for a uniform bright frame on all four sides. The very edge is skipped: scanners often
  * catch a sliver of their own bed there.
  */
@@ -249,33 +264,56 @@ function findBorder(v: Uint8Array, ch: number, w: number, h: number): BorderFind
   const paper = [0, 1, 2].map((c) => medians.reduce((a, m) => a + m[c], 0) / 4) as Triplet;
   if (Math.max(...paper) < 170) return null;
 
-  const isPaper = (i: number) =>
-    Math.abs(v[i] - paper[0]) <= 12 && Math.abs(v[i + 1] - paper[1]) <= 12 && Math.abs(v[i + 2] - paper[2]) <= 12;
-  const rowIsPaper = (y: number) => {
-    let k = 0;
-    for (let x = 0; x < w; x++) if (isPaper((y * w + x) * ch)) k++;
-    return k >= 0.9 * w;
-  };
-  const colIsPaper = (x: number) => {
-    let k = 0;
-    for (let y = 0; y < h; y++) if (isPaper((y * w + x) * ch)) k++;
-    return k >= 0.9 * h;
-  };
+  const [p0, p1, p2] = paper;
   const limitY = Math.floor(h * 0.3);
   const limitX = Math.floor(w * 0.3);
+  const rowNeed = 0.9 * w;
+  const colNeed = 0.9 * h;
   let top = 0;
-  while (top < limitY && rowIsPaper(top)) top++;
+  while (top < limitY && paperInLine(v, (top * w) * ch, ch, w, p0, p1, p2) >= rowNeed) top++;
   let bottom = 0;
-  while (bottom < limitY && rowIsPaper(h - 1 - bottom)) bottom++;
+  while (bottom < limitY && paperInLine(v, ((h - 1 - bottom) * w) * ch, ch, w, p0, p1, p2) >= rowNeed) bottom++;
   let left = 0;
-  while (left < limitX && colIsPaper(left)) left++;
+  while (left < limitX && paperInLine(v, left * ch, w * ch, h, p0, p1, p2) >= colNeed) left++;
   let right = 0;
-  while (right < limitX && colIsPaper(w - 1 - right)) right++;
+  while (right < limitX && paperInLine(v, (w - 1 - right) * ch, w * ch, h, p0, p1, p2) >= colNeed) right++;
   // a margin past the found edge keeps the print's own edge (often a soft line) out of the statistics
   const m = Math.max(1, Math.round(0.01 * Math.min(w, h)));
   const rect = { x0: left + m, y0: top + m, x1: w - right - m, y1: h - bottom - m };
   if (rect.x1 - rect.x0 < 8 || rect.y1 - rect.y0 < 8) return null;
   return { paper, rect, uniformity, cut: { top: top / h, right: right / w, bottom: bottom / h, left: left / w } };
+}
+
+/** Histogram of summed three-channel density, every `s`-th pixel of `r` in each direction. */
+function summedDensityHistogram(v: Uint8Array, ch: number, w: number, x0: number, y0: number, x1: number, y1: number, s: number, scale: number, hist: Uint32Array): number {
+  const top = hist.length - 1;
+  let n = 0;
+  for (let y = y0; y < y1; y += s) {
+    let i = (y * w + x0) * ch;
+    for (let x = x0; x < x1; x += s, i += s * ch) {
+      hist[Math.min(top, Math.floor((densityOf8[v[i]] + densityOf8[v[i + 1]] + densityOf8[v[i + 2]]) * scale))]++;
+      n++;
+    }
+  }
+  return n;
+}
+
+/** Per-channel histograms of the sampled pixels whose summed-density bin is at most `cut`; returns their count. */
+function histogramsUpTo(v: Uint8Array, ch: number, w: number, x0: number, y0: number, x1: number, y1: number, s: number, scale: number, cut: number, h0: Uint32Array, h1: Uint32Array, h2: Uint32Array): number {
+  let count = 0;
+  for (let y = y0; y < y1; y += s) {
+    let i = (y * w + x0) * ch;
+    for (let x = x0; x < x1; x += s, i += s * ch) {
+      const b = Math.floor((densityOf8[v[i]] + densityOf8[v[i + 1]] + densityOf8[v[i + 2]]) * scale);
+      if (b <= cut) {
+        h0[v[i]]++;
+        h1[v[i + 1]]++;
+        h2[v[i + 2]]++;
+        count++;
+      }
+    }
+  }
+  return count;
 }
 
 /** Median colour of the cleanest highlights: the pixels of lowest total density. */
@@ -285,32 +323,13 @@ function findHighlight(v: Uint8Array, ch: number, w: number, r: Rect): { paper: 
   const bins = 1024;
   const scale = bins / 9; // summed density of three channels is at most 9
   const hist = new Uint32Array(bins);
-  let n = 0;
-  for (let y = r.y0; y < r.y1; y += s) {
-    let i = (y * w + r.x0) * ch;
-    for (let x = r.x0; x < r.x1; x += s, i += s * ch) {
-      hist[Math.min(bins - 1, Math.floor((densityOf8[v[i]] + densityOf8[v[i + 1]] + densityOf8[v[i + 2]]) * scale))]++;
-      n++;
-    }
-  }
+  const n = summedDensityHistogram(v, ch, w, r.x0, r.y0, r.x1, r.y1, s, scale, hist);
   const want = Math.max(1, Math.round(n * HIGHLIGHT_SHARE));
   let acc = 0;
   let cut = 0;
   while (cut < bins - 1 && acc + hist[cut] < want) acc += hist[cut++];
   const hs = [new Uint32Array(256), new Uint32Array(256), new Uint32Array(256)];
-  let count = 0;
-  for (let y = r.y0; y < r.y1; y += s) {
-    let i = (y * w + r.x0) * ch;
-    for (let x = r.x0; x < r.x1; x += s, i += s * ch) {
-      const b = Math.floor((densityOf8[v[i]] + densityOf8[v[i + 1]] + densityOf8[v[i + 2]]) * scale);
-      if (b <= cut) {
-        hs[0][v[i]]++;
-        hs[1][v[i + 1]]++;
-        hs[2][v[i + 2]]++;
-        count++;
-      }
-    }
-  }
+  const count = histogramsUpTo(v, ch, w, r.x0, r.y0, r.x1, r.y1, s, scale, cut, hs[0], hs[1], hs[2]);
   const paper = [0, 1, 2].map((c) => percentileCode(hs[c], count, 0.5)) as Triplet;
   const spread = Math.max(
     ...[0, 1, 2].map((c) => densityOf8[percentileCode(hs[c], count, 0.1)] - densityOf8[percentileCode(hs[c], count, 0.9)]),
@@ -396,6 +415,87 @@ const NEUTRAL_TOLERANCES = [0.25, 0.12, 0.06, 0.04];
 const MIN_NEUTRAL_DENSITY = 0.15;
 
 /**
+ * Densities above the paper base of the pixels on a grid of `step` that carry enough dye in every
+ * channel to measure a ratio on, into dr/dg/db; returns how many.
+ */
+function collectNeutralCandidates(
+  v: Uint8Array,
+  ch: number,
+  w: number,
+  x0: number,
+  y0: number,
+  x1: number,
+  y1: number,
+  step: number,
+  pr: number,
+  pg: number,
+  pb: number,
+  dr: Float32Array,
+  dg: Float32Array,
+  db: Float32Array,
+): number {
+  const least = MIN_NEUTRAL_DENSITY * 0.5;
+  let m = 0;
+  for (let y = y0; y < y1; y += step) {
+    for (let x = x0; x < x1; x += step) {
+      const i = (y * w + x) * ch;
+      // 8-bit codes below 3 are clipped shadows: their density is unknown
+      if (v[i] < 3 || v[i + 1] < 3 || v[i + 2] < 3) continue;
+      const a = densityOf8[v[i]] - pr;
+      const b = densityOf8[v[i + 1]] - pg;
+      const c = densityOf8[v[i + 2]] - pb;
+      if (a < least || b < least || c < least) continue;
+      dr[m] = a;
+      dg[m] = b;
+      db[m] = c;
+      m++;
+    }
+  }
+  return m;
+}
+
+/**
+ * One pass of {@link fitOnNeutrals}: the candidates that come out within `tol` of neutral under
+ * the gains ir/ig/ib, binned by their red:green and blue:green density ratios (weighted by
+ * density) and by depth. Returns how many; the deepest goes to depthOut[0].
+ */
+function neutralPass(
+  dr: Float32Array,
+  dg: Float32Array,
+  db: Float32Array,
+  m: number,
+  ir: number,
+  ig: number,
+  ib: number,
+  tol: number,
+  rgHist: Float64Array,
+  bgHist: Float64Array,
+  depthHist: Uint32Array,
+  depthOut: Float64Array,
+): number {
+  const bins = rgHist.length;
+  let count = 0;
+  let depth = 0;
+  for (let j = 0; j < m; j++) {
+    const G = dg[j] * ig;
+    if (G < MIN_NEUTRAL_DENSITY) continue;
+    const lo = G * (1 - tol);
+    const hi = G * (1 + tol);
+    const R = dr[j] * ir;
+    const B = db[j] * ib;
+    if (R < lo || R > hi || B < lo || B > hi) continue;
+    const inv = RATIO_SCALE / dg[j];
+    rgHist[Math.min(bins - 1, Math.round(dr[j] * inv))] += G;
+    bgHist[Math.min(bins - 1, Math.round(db[j] * inv))] += G;
+    depthHist[Math.min(60, Math.round(G * 20))]++;
+    count++;
+    if (G > depth) depth = G;
+  }
+  depthOut[0] = depth;
+  return count;
+}
+
+/**
  * Refines dye retention on the pixels that come out near neutral: in those the three dyes were
  * in balance when new (common practice: greys and blacks of a scene are neutral), so the ratio of
  * their densities now is the ratio of retentions. Each pass tightens the tolerance around the
@@ -414,54 +514,21 @@ function fitOnNeutrals(
   const dr = new Float32Array(cap);
   const dg = new Float32Array(cap);
   const db = new Float32Array(cap);
-  let m = 0;
-  let total = 0;
-  for (let y = r.y0; y < r.y1; y += step) {
-    for (let x = r.x0; x < r.x1; x += step) {
-      const i = (y * w + x) * ch;
-      total++;
-      // 8-bit codes below 3 are clipped shadows: their density is unknown
-      if (v[i] < 3 || v[i + 1] < 3 || v[i + 2] < 3) continue;
-      const a = densityOf8[v[i]] - paperD[0];
-      const b = densityOf8[v[i + 1]] - paperD[1];
-      const c = densityOf8[v[i + 2]] - paperD[2];
-      if (a < MIN_NEUTRAL_DENSITY * 0.5 || b < MIN_NEUTRAL_DENSITY * 0.5 || c < MIN_NEUTRAL_DENSITY * 0.5) continue;
-      dr[m] = a;
-      dg[m] = b;
-      db[m] = c;
-      m++;
-    }
-  }
+  const m = collectNeutralCandidates(v, ch, w, r.x0, r.y0, r.x1, r.y1, step, paperD[0], paperD[1], paperD[2], dr, dg, db);
+  const total = r.x1 > r.x0 && r.y1 > r.y0 ? Math.ceil((r.x1 - r.x0) / step) * Math.ceil((r.y1 - r.y0) / step) : 0;
   const bins = RATIO_BINS;
   const rgHist = new Float64Array(bins);
   const bgHist = new Float64Array(bins);
   let k: Triplet = [...start];
   const depthHist = new Uint32Array(61);
+  const passDepth = new Float64Array(1);
   let last: { retention: Triplet; share: number; depth: number; spread: number } | null = null;
   for (const tol of NEUTRAL_TOLERANCES) {
     rgHist.fill(0);
     bgHist.fill(0);
     depthHist.fill(0);
-    let count = 0;
-    let depth = 0;
-    const ir = 1 / k[0];
-    const ig = 1 / k[1];
-    const ib = 1 / k[2];
-    for (let j = 0; j < m; j++) {
-      const G = dg[j] * ig;
-      if (G < MIN_NEUTRAL_DENSITY) continue;
-      const lo = G * (1 - tol);
-      const hi = G * (1 + tol);
-      const R = dr[j] * ir;
-      const B = db[j] * ib;
-      if (R < lo || R > hi || B < lo || B > hi) continue;
-      const inv = RATIO_SCALE / dg[j];
-      rgHist[Math.min(bins - 1, Math.round(dr[j] * inv))] += G;
-      bgHist[Math.min(bins - 1, Math.round(db[j] * inv))] += G;
-      depthHist[Math.min(60, Math.round(G * 20))]++;
-      count++;
-      if (G > depth) depth = G;
-    }
+    const count = neutralPass(dr, dg, db, m, 1 / k[0], 1 / k[1], 1 / k[2], tol, rgHist, bgHist, depthHist, passDepth);
+    const depth = passDepth[0];
     if (count < 30) break;
     const kr = histogramMedian(rgHist) / RATIO_SCALE;
     const kb = histogramMedian(bgHist) / RATIO_SCALE;
@@ -494,20 +561,50 @@ function histogramMedian(h: Float64Array): number {
 }
 
 function sceneVariety(v: Uint8Array, ch: number, w: number, inner: Rect, paperD: Triplet, retention: Triplet): { variety: number; neutralShare: number } {
-  const gains = retention.map((k) => 1 / Math.max(k, MIN_RETENTION));
+  const step = Math.max(1, Math.floor(Math.sqrt(((inner.x1 - inner.x0) * (inner.y1 - inner.y0)) / 40000)));
+  const sums = new Float64Array(6);
+  const g = (k: number) => 1 / Math.max(k, MIN_RETENTION);
+  varietySums(v, ch, w, inner.x0, inner.y0, inner.x1, inner.y1, step, paperD[0], paperD[1], paperD[2], g(retention[0]), g(retention[1]), g(retention[2]), sums);
+  const [neutrals, sampled, sumA, sumB, sumAA, sumBB] = sums;
+  const n = Math.max(1, sampled);
+  const variety = Math.sqrt(Math.max(0, sumAA / n - (sumA / n) ** 2) + Math.max(0, sumBB / n - (sumB / n) ** 2));
+  return { variety, neutralShare: neutrals / n };
+}
+
+/**
+ * Over a grid of `step`: how many pixels come out near neutral under the gains, how many were
+ * looked at, and the sums and sums of squares of their red-green and blue-green density
+ * differences, into `out` in that order.
+ */
+function varietySums(
+  v: Uint8Array,
+  ch: number,
+  w: number,
+  x0: number,
+  y0: number,
+  x1: number,
+  y1: number,
+  step: number,
+  pr: number,
+  pg: number,
+  pb: number,
+  gr: number,
+  gg: number,
+  gb: number,
+  out: Float64Array,
+): void {
   let neutrals = 0;
   let sampled = 0;
   let sumA = 0;
   let sumB = 0;
   let sumAA = 0;
   let sumBB = 0;
-  const step = Math.max(1, Math.floor(Math.sqrt(((inner.x1 - inner.x0) * (inner.y1 - inner.y0)) / 40000)));
-  for (let y = inner.y0; y < inner.y1; y += step) {
-    for (let x = inner.x0; x < inner.x1; x += step) {
+  for (let y = y0; y < y1; y += step) {
+    for (let x = x0; x < x1; x += step) {
       const i = (y * w + x) * ch;
-      const dr = (densityOf8[v[i]] - paperD[0]) * gains[0];
-      const dg = (densityOf8[v[i + 1]] - paperD[1]) * gains[1];
-      const db = (densityOf8[v[i + 2]] - paperD[2]) * gains[2];
+      const dr = (densityOf8[v[i]] - pr) * gr;
+      const dg = (densityOf8[v[i + 1]] - pg) * gg;
+      const db = (densityOf8[v[i + 2]] - pb) * gb;
       const a = dr - dg;
       const b = db - dg;
       if (Math.abs(a) < 0.04 + 0.03 * dg && Math.abs(b) < 0.04 + 0.03 * dg) neutrals++;
@@ -518,9 +615,12 @@ function sceneVariety(v: Uint8Array, ch: number, w: number, inner: Rect, paperD:
       sampled++;
     }
   }
-  const n = Math.max(1, sampled);
-  const variety = Math.sqrt(Math.max(0, sumAA / n - (sumA / n) ** 2) + Math.max(0, sumBB / n - (sumB / n) ** 2));
-  return { variety, neutralShare: neutrals / n };
+  out[0] = neutrals;
+  out[1] = sampled;
+  out[2] = sumA;
+  out[3] = sumB;
+  out[4] = sumAA;
+  out[5] = sumBB;
 }
 
 /** Measures paper base, dye retention, stain and grade of one print from a reduced copy of its scan. */

@@ -180,21 +180,30 @@ function map8(src: Uint8Array, dst: Uint8Array, luts: ChannelLuts, r: Uint8Array
       t = { rg: pairTable(r, g), br: pairTable(b, r), gb: pairTable(g, b) };
       pairTables.set(luts, t);
     }
-    const { rg, br, gb } = t;
     const words = Math.floor(n / 12) * 3;
-    const s = new Uint32Array(src.buffer, src.byteOffset, words);
-    const d = new Uint32Array(dst.buffer, dst.byteOffset, words);
-    for (let w = 0; w < words; w += 3) {
-      const a = s[w];
-      const c = s[w + 1];
-      const e = s[w + 2];
-      d[w] = rg[a & 0xffff] | (br[a >>> 16] << 16);
-      d[w + 1] = gb[c & 0xffff] | (rg[c >>> 16] << 16);
-      d[w + 2] = br[e & 0xffff] | (gb[e >>> 16] << 16);
-    }
+    mapWords(new Uint32Array(src.buffer, src.byteOffset, words), new Uint32Array(dst.buffer, dst.byteOffset, words), t.rg, t.br, t.gb);
     i = words * 4;
   }
-  for (; i < n; i += 3) {
+  // what is left over (and small buffers): byte by byte, in a loop of its own so that each
+  // loop is optimised by V8 as it runs, without code of the other that has not run yet
+  if (i < n) mapBytes(src, dst, i, r, g, b);
+}
+
+function mapWords(s: Uint32Array, d: Uint32Array, rg: Uint16Array, br: Uint16Array, gb: Uint16Array): void {
+  const words = s.length;
+  for (let w = 0; w < words; w += 3) {
+    const a = s[w];
+    const c = s[w + 1];
+    const e = s[w + 2];
+    d[w] = rg[a & 0xffff] | (br[a >>> 16] << 16);
+    d[w + 1] = gb[c & 0xffff] | (rg[c >>> 16] << 16);
+    d[w + 2] = br[e & 0xffff] | (gb[e >>> 16] << 16);
+  }
+}
+
+function mapBytes(src: Uint8Array, dst: Uint8Array, from: number, r: Uint8Array, g: Uint8Array, b: Uint8Array): void {
+  const n = src.length;
+  for (let i = from; i < n; i += 3) {
     dst[i] = r[src[i]];
     dst[i + 1] = g[src[i + 1]];
     dst[i + 2] = b[src[i + 2]];
