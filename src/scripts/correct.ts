@@ -6,10 +6,11 @@
  * after every other scan has been done. Originals are only ever read.
  */
 import { parseArgs } from 'node:util';
+import { writeFileSync } from 'node:fs';
 import { mkdir, readdir, stat, writeFile } from 'node:fs/promises';
 import { basename, extname, join, resolve } from 'node:path';
 import sharp from 'sharp';
-import { analyseAndRender, loadReduced, ScanRejected } from '../lib/restoration/imaging';
+import { analyseAndRender, loadReduced, readScanSync, ScanRejected } from '../lib/restoration/imaging';
 import { analysePixels, poolAnalyses, type Analysis } from '../lib/restoration/analysis';
 import type { Correction } from '../lib/restoration/correction';
 
@@ -193,9 +194,10 @@ async function main(): Promise<number> {
   await eachLimited(files, AT_A_TIME, async (file, i) => {
     const t0 = Date.now();
     try {
-      const r = await analyseAndRender(file, { strength: opts.strength, quality: opts.quality, correction: corrections[i] });
+      // whole files in and out, synchronously: see readScanSync
+      const r = await analyseAndRender(readScanSync(file), { strength: opts.strength, quality: opts.quality, correction: corrections[i] });
       const output = join(opts.out, names[i]);
-      await writeFile(output, r.buffer);
+      writeFileSync(output, r.buffer);
       const analysis = pooledAnalyses.get(i) ?? r.analysis;
       done[i] = { input: file, output, width: r.width, height: r.height, analysis, correction: r.correction, ms: Date.now() - t0 };
       log(`${basename(file)} -> ${names[i]}: ${summary(analysis)} ${Date.now() - t0} ms`);

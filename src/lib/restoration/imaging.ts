@@ -5,6 +5,7 @@
  * One full decode per scan: {@link analyseAndRender} decodes the oriented sRGB pixels once and
  * derives the analysis copy, the render and the previews from that single buffer.
  */
+import { readFileSync } from 'node:fs';
 import { readFile, stat, open } from 'node:fs/promises';
 import sharp from 'sharp';
 import { analysePixels, samplePixels, type Analysis, type ReducedPixels } from './analysis';
@@ -527,12 +528,30 @@ async function renderFromFull(full: FullPixels, correction: Correction, options:
   return result;
 }
 
+function readRefusal(err: unknown): ScanRejected {
+  return new ScanRejected('unreadable', `The file could not be read: ${(err as NodeJS.ErrnoException).code ?? 'error'}.`, { cause: err });
+}
+
 async function asBuffer(input: string | Buffer): Promise<Buffer> {
   if (Buffer.isBuffer(input)) return input;
   try {
     return await readFile(input);
   } catch (err) {
-    throw new ScanRejected('unreadable', `The file could not be read: ${(err as NodeJS.ErrnoException).code ?? 'error'}.`, { cause: err });
+    throw readRefusal(err);
+  }
+}
+
+/**
+ * Reads a whole scan at once, blocking, for a command line: a scan of a few MB comes from the page
+ * cache in well under a millisecond, where an asynchronous read waits its turn on libuv's threads
+ * behind the decodes and encodes of other scans. A failed read is refused as {@link asBuffer} does.
+ * @throws {ScanRejected}
+ */
+export function readScanSync(path: string): Buffer {
+  try {
+    return readFileSync(path);
+  } catch (err) {
+    throw readRefusal(err);
   }
 }
 
