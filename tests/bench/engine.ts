@@ -87,7 +87,7 @@ function runCli(out: string, inputs: string[] = files): Promise<CliRun> {
   return new Promise((resolvePromise) => {
     const env = { ...process.env };
     // what `npm run correct` runs (package.json), without npm's own start-up
-    const command = ['sh', join(ROOT, 'src/scripts/engine-env.sh'), '--offline', process.execPath, join(ROOT, 'src/scripts/bundled.mjs'), join(ROOT, 'src/scripts/correct.ts'), '--out', out, ...inputs];
+    const command = ['sh', join(ROOT, 'src/scripts/engine-env.sh'), '--offline', process.execPath, join(ROOT, 'src/scripts/bundled.cjs'), join(ROOT, 'src/scripts/correct.ts'), '--out', out, ...inputs];
     const timed = existsSync(GNU_TIME);
     const [exe, ...args] = timed ? [GNU_TIME, '-f', 'bench-time %e %U %S %M', ...command] : command;
     const t0 = performance.now();
