@@ -79,6 +79,17 @@ export async function measureFloor(files: string[], passes = 3): Promise<Floor> 
   };
 }
 
+/**
+ * One more measurement of `singleCore` (a child process, `passes` passes, the fastest kept), for a
+ * benchmark that measures the floor again between its own runs, so that a machine that slows down
+ * or speeds up during the run does not favour either side.
+ */
+export async function singleCoreAgain(files: string[], passes = 1): Promise<number> {
+  const pinned = existsSync(TASKSET);
+  const run = await child(files, passes, pinned);
+  return pinned ? run.wallMs : run.cpuMs;
+}
+
 /** The lines every benchmark prints about its floor. */
 export function describeFloor(f: Floor): string[] {
   return [
