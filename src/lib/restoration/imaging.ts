@@ -574,6 +574,13 @@ export interface AnalyseAndRenderOptions extends RenderOptions {
   /** Long side of the analysis copy, default {@link reviewCopySide} of the scan. */
   analysisSide?: number;
   limits?: Partial<ScanLimits>;
+  /**
+   * Runs the full decode. A batch with several scans in flight passes a limit here (p-limit), so
+   * that no more decode at once than there are cores and their decodes end one after another
+   * rather than together, each scan then finding this thread free for its measuring
+   * (src/scripts/correct.ts).
+   */
+  decodeSlot?: <T>(decode: () => Promise<T>) => Promise<T>;
 }
 
 export interface AnalyseAndRenderResult extends RenderResult {
@@ -593,7 +600,11 @@ export interface AnalyseAndRenderResult extends RenderResult {
 export async function analyseAndRender(input: string | Buffer, options: AnalyseAndRenderOptions = {}): Promise<AnalyseAndRenderResult> {
   const file = await asBuffer(input);
   const probe = await probeScan(file, options.limits);
-  const full = await loadFull(file, options.limits, probe);
+  const decode = () => loadFull(file, options.limits, probe);
+  const full = await (options.decodeSlot ? options.decodeSlot(decode) : decode());
+  // What waits for this thread goes first (another scan's decode or encode to hand to libvips)
+  // before this scan's measuring and correcting hold it for some 30 ms.
+  await new Promise<void>((resolve) => setImmediate(resolve));
   // the same size of copy as the analyse job measures (reviewCopySide), so both propose alike
   const analysisSide = options.analysisSide ?? reviewCopySide(Math.max(probe.width, probe.height), probe.format);
   const previewSide = options.maxSide ? 0 : smallSide(options.previews);
