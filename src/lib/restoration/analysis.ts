@@ -121,6 +121,14 @@ interface Rect {
   y1: number;
 }
 
+/** Every `step`-th pixel, across and down, of a rectangle of 8-bit pixels `w` wide with `ch` channels. */
+interface Grid extends Rect {
+  v: Uint8Array;
+  ch: number;
+  w: number;
+  step: number;
+}
+
 /**
  * An analysis copy of at most `longSide` pixels on the long side, taken from full-resolution
  * pixels by keeping the centre pixel of each block: a tenth of the memory reads of averaging.
@@ -418,22 +426,8 @@ const MIN_NEUTRAL_DENSITY = 0.15;
  * Densities above the paper base of the pixels on a grid of `step` that carry enough dye in every
  * channel to measure a ratio on, into dr/dg/db; returns how many.
  */
-function collectNeutralCandidates(
-  v: Uint8Array,
-  ch: number,
-  w: number,
-  x0: number,
-  y0: number,
-  x1: number,
-  y1: number,
-  step: number,
-  pr: number,
-  pg: number,
-  pb: number,
-  dr: Float32Array,
-  dg: Float32Array,
-  db: Float32Array,
-): number {
+function collectNeutralCandidates(g: Grid, pr: number, pg: number, pb: number, dr: Float32Array, dg: Float32Array, db: Float32Array): number {
+  const { v, ch, w, x0, y0, x1, y1, step } = g;
   const least = MIN_NEUTRAL_DENSITY * 0.5;
   let m = 0;
   for (let y = y0; y < y1; y += step) {
@@ -514,7 +508,7 @@ function fitOnNeutrals(
   const dr = new Float32Array(cap);
   const dg = new Float32Array(cap);
   const db = new Float32Array(cap);
-  const m = collectNeutralCandidates(v, ch, w, r.x0, r.y0, r.x1, r.y1, step, paperD[0], paperD[1], paperD[2], dr, dg, db);
+  const m = collectNeutralCandidates({ v, ch, w, x0: r.x0, y0: r.y0, x1: r.x1, y1: r.y1, step }, paperD[0], paperD[1], paperD[2], dr, dg, db);
   const total = r.x1 > r.x0 && r.y1 > r.y0 ? Math.ceil((r.x1 - r.x0) / step) * Math.ceil((r.y1 - r.y0) / step) : 0;
   const bins = RATIO_BINS;
   const rgHist = new Float64Array(bins);
@@ -564,7 +558,7 @@ function sceneVariety(v: Uint8Array, ch: number, w: number, inner: Rect, paperD:
   const step = Math.max(1, Math.floor(Math.sqrt(((inner.x1 - inner.x0) * (inner.y1 - inner.y0)) / 40000)));
   const sums = new Float64Array(6);
   const g = (k: number) => 1 / Math.max(k, MIN_RETENTION);
-  varietySums(v, ch, w, inner.x0, inner.y0, inner.x1, inner.y1, step, paperD[0], paperD[1], paperD[2], g(retention[0]), g(retention[1]), g(retention[2]), sums);
+  varietySums({ v, ch, w, x0: inner.x0, y0: inner.y0, x1: inner.x1, y1: inner.y1, step }, paperD[0], paperD[1], paperD[2], g(retention[0]), g(retention[1]), g(retention[2]), sums);
   const [neutrals, sampled, sumA, sumB, sumAA, sumBB] = sums;
   const n = Math.max(1, sampled);
   const variety = Math.sqrt(Math.max(0, sumAA / n - (sumA / n) ** 2) + Math.max(0, sumBB / n - (sumB / n) ** 2));
@@ -576,23 +570,8 @@ function sceneVariety(v: Uint8Array, ch: number, w: number, inner: Rect, paperD:
  * looked at, and the sums and sums of squares of their red-green and blue-green density
  * differences, into `out` in that order.
  */
-function varietySums(
-  v: Uint8Array,
-  ch: number,
-  w: number,
-  x0: number,
-  y0: number,
-  x1: number,
-  y1: number,
-  step: number,
-  pr: number,
-  pg: number,
-  pb: number,
-  gr: number,
-  gg: number,
-  gb: number,
-  out: Float64Array,
-): void {
+function varietySums(g: Grid, pr: number, pg: number, pb: number, gr: number, gg: number, gb: number, out: Float64Array): void {
+  const { v, ch, w, x0, y0, x1, y1, step } = g;
   let neutrals = 0;
   let sampled = 0;
   let sumA = 0;
