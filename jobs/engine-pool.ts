@@ -11,8 +11,11 @@ import type { ScanRejectedCode } from '../src/lib/restoration/errors.ts';
 import type { Correction } from '../src/lib/restoration/correction.ts';
 import { config } from '../src/lib/server/config.ts';
 
+/** What crosses to an engine thread is copied (structured clone): no functions, so no decode slot. */
+type ThreadAnalyseAndRenderOptions = Omit<AnalyseAndRenderOptions, 'decodeSlot'>;
+
 export type EngineRequest =
-  | { id: number; kind: 'analyseAndRender'; path: string; options: AnalyseAndRenderOptions }
+  | { id: number; kind: 'analyseAndRender'; path: string; options: ThreadAnalyseAndRenderOptions }
   | { id: number; kind: 'analyseForReview'; path: string; options: ReviewCopiesOptions }
   | { id: number; kind: 'renderCorrected'; path: string; correction: Correction; options: RenderOptions; limits?: Partial<ScanLimits> };
 type Job = EngineRequest extends infer R ? (R extends { id: number } ? Omit<R, 'id'> : never) : never;
@@ -53,7 +56,7 @@ export class EnginePool {
 
   constructor(private readonly size: number) {}
 
-  analyseAndRender(path: string, options: AnalyseAndRenderOptions): Promise<AnalyseAndRenderResult> {
+  analyseAndRender(path: string, options: ThreadAnalyseAndRenderOptions): Promise<AnalyseAndRenderResult> {
     return this.submit({ kind: 'analyseAndRender', path, options }) as Promise<AnalyseAndRenderResult>;
   }
 
