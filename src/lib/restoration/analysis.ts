@@ -185,18 +185,71 @@ function to8(p: ReducedPixels): { v: Uint8Array; ch: number } {
 }
 
 function histograms(v: Uint8Array, ch: number, width: number, r: Rect): { h: Uint32Array[]; n: number } {
-  const h0 = new Uint32Array(256);
-  const h1 = new Uint32Array(256);
-  const h2 = new Uint32Array(256);
+  // four sets of the three channels' bins, one per pixel of a group of four, summed at the end:
+  // neighbouring pixels of a print are often alike, and one set would make each count wait for
+  // the last one to the same bin
+  const sets = new Uint32Array(HISTOGRAM_SETS * 768);
+  const words = LITTLE_ENDIAN && ch === 3 && v.byteOffset % 4 === 0 ? new Uint32Array(v.buffer, v.byteOffset, v.length >> 2) : null;
   for (let y = r.y0; y < r.y1; y++) {
-    const end = (y * width + r.x1) * ch;
-    for (let i = (y * width + r.x0) * ch; i < end; i += ch) {
-      h0[v[i]]++;
-      h1[v[i + 1]]++;
-      h2[v[i + 2]]++;
+    const from = y * width + r.x0;
+    const to = y * width + r.x1;
+    if (words) histogramRowWords(v, words, from, to, sets);
+    else histogramRowBytes(v, ch, from, to, sets);
+  }
+  const h = [new Uint32Array(256), new Uint32Array(256), new Uint32Array(256)];
+  for (let k = 0; k < HISTOGRAM_SETS; k++) {
+    for (let c = 0; c < 3; c++) {
+      const base = k * 768 + c * 256;
+      const out = h[c];
+      for (let b = 0; b < 256; b++) out[b] += sets[base + b];
     }
   }
-  return { h: [h0, h1, h2], n: Math.max(0, r.x1 - r.x0) * Math.max(0, r.y1 - r.y0) };
+  return { h, n: Math.max(0, r.x1 - r.x0) * Math.max(0, r.y1 - r.y0) };
+}
+
+const HISTOGRAM_SETS = 4;
+/** Whether a 32-bit word holds its bytes lowest first, as every browser and server CPU in use does. */
+const LITTLE_ENDIAN = new Uint8Array(new Uint32Array([1]).buffer)[0] === 1;
+
+/** Pixels `from` to `to` (pixel indices) into the first set of bins, one byte at a time. */
+function histogramRowBytes(v: Uint8Array, ch: number, from: number, to: number, sets: Uint32Array): void {
+  const end = to * ch;
+  for (let i = from * ch; i < end; i += ch) {
+    sets[v[i]]++;
+    sets[256 + v[i + 1]]++;
+    sets[512 + v[i + 2]]++;
+  }
+}
+
+/**
+ * Pixels `from` to `to` of RGB bytes, where whole groups of four pixels are read as three 32-bit
+ * words (a group that starts at a pixel index divisible by four starts on a word, red first),
+ * each pixel of the group into a set of its own; the pixels before the first group and after the
+ * last go byte by byte. The counts are exactly those of the byte loop, about twice as fast.
+ */
+function histogramRowWords(v: Uint8Array, words: Uint32Array, from: number, to: number, sets: Uint32Array): void {
+  const first = Math.min(to, (from + 3) & ~3);
+  const last = Math.max(first, to & ~3);
+  if (first > from) histogramRowBytes(v, 3, from, first, sets);
+  const end = (last * 3) >> 2;
+  for (let w = (first * 3) >> 2; w < end; w += 3) {
+    const a = words[w];
+    const b = words[w + 1];
+    const c = words[w + 2];
+    sets[a & 255]++;
+    sets[256 + ((a >>> 8) & 255)]++;
+    sets[512 + ((a >>> 16) & 255)]++;
+    sets[768 + (a >>> 24)]++;
+    sets[1024 + (b & 255)]++;
+    sets[1280 + ((b >>> 8) & 255)]++;
+    sets[1536 + ((b >>> 16) & 255)]++;
+    sets[1792 + (b >>> 24)]++;
+    sets[2048 + (c & 255)]++;
+    sets[2304 + ((c >>> 8) & 255)]++;
+    sets[2560 + ((c >>> 16) & 255)]++;
+    sets[2816 + (c >>> 24)]++;
+  }
+  if (to > last) histogramRowBytes(v, 3, last, to, sets);
 }
 
 /** Code value at fraction p of a histogram (0 = darkest code). */
@@ -467,7 +520,6 @@ function neutralPass(
   depthHist: Uint32Array,
   depthOut: Float64Array,
 ): number {
-  const bins = rgHist.length;
   let count = 0;
   let depth = 0;
   for (let j = 0; j < m; j++) {
@@ -479,9 +531,13 @@ function neutralPass(
     const B = db[j] * ib;
     if (R < lo || R > hi || B < lo || B > hi) continue;
     const inv = RATIO_SCALE / dg[j];
-    rgHist[Math.min(bins - 1, Math.round(dr[j] * inv))] += G;
-    bgHist[Math.min(bins - 1, Math.round(db[j] * inv))] += G;
-    depthHist[Math.min(60, Math.round(G * 20))]++;
+    // every value here is positive: adding a half and truncating rounds as Math.round does
+    const rg = (dr[j] * inv + 0.5) | 0;
+    const bg = (db[j] * inv + 0.5) | 0;
+    const dep = (G * 20 + 0.5) | 0;
+    rgHist[rg < RATIO_BINS ? rg : RATIO_BINS - 1] += G;
+    bgHist[bg < RATIO_BINS ? bg : RATIO_BINS - 1] += G;
+    depthHist[dep < 60 ? dep : 60]++;
     count++;
     if (G > depth) depth = G;
   }
@@ -510,9 +566,8 @@ function fitOnNeutrals(
   const db = new Float32Array(cap);
   const m = collectNeutralCandidates({ v, ch, w, x0: r.x0, y0: r.y0, x1: r.x1, y1: r.y1, step }, paperD[0], paperD[1], paperD[2], dr, dg, db);
   const total = r.x1 > r.x0 && r.y1 > r.y0 ? Math.ceil((r.x1 - r.x0) / step) * Math.ceil((r.y1 - r.y0) / step) : 0;
-  const bins = RATIO_BINS;
-  const rgHist = new Float64Array(bins);
-  const bgHist = new Float64Array(bins);
+  const rgHist = new Float64Array(RATIO_BINS);
+  const bgHist = new Float64Array(RATIO_BINS);
   let k: Triplet = [...start];
   const depthHist = new Uint32Array(61);
   const passDepth = new Float64Array(1);
