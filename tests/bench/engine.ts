@@ -20,6 +20,7 @@ import sharp from 'sharp';
 import { AGEING_MODELS, agePixels, encodeScene, generateScene, type Ageing } from '../../src/lib/demo/synthetic';
 import { analyseForReview, analyseScan, loadFull, loadReduced, deriveReduced, renderCorrected, analyseAndRender, reviewCopySide } from '../../src/lib/restoration/imaging';
 import { analysePixels, samplePixels } from '../../src/lib/restoration/analysis';
+import { nativeTablesStatus } from '../../src/lib/restoration/native-tables';
 import { describeFloor, measureFloor, singleCoreAgain } from './floor';
 
 const ROOT = fileURLToPath(new URL('../..', import.meta.url));
@@ -154,6 +155,8 @@ async function main(): Promise<void> {
   console.log(`bench_process_peak_rss_mb: ${inProcessPeak.toFixed(0)}`);
 
   console.log(`\ncommand line (as \`npm run correct\` runs it, through src/scripts/engine-env.sh), ${files.length} scans:`);
+  const native = nativeTablesStatus();
+  console.log(`correction tables applied ${native.loaded ? 'natively (src/lib/restoration/native-tables.ts)' : `in JavaScript: ${native.reason}`}`);
   const out = join(work, 'out');
   // one scan first, not counted: builds the command line's bundle as any earlier run would have
   await runCli(join(work, 'warm'), files.slice(0, 1));
