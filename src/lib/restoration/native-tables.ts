@@ -22,6 +22,7 @@ import { existsSync, mkdirSync, readdirSync, renameSync, rmSync, writeFileSync }
 import { createRequire } from 'node:module';
 import { tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
+import { fileURLToPath } from 'node:url';
 import type { ChannelLuts } from './correction';
 
 const SOURCE = String.raw`
@@ -145,13 +146,17 @@ function nodeHeaders(): string | null {
 
 /**
  * DRAWERLIGHT_NATIVE_CACHE when set (a deployment whose node_modules is read-only), else the
- * project's node_modules/.cache when the process runs from it (npm scripts, tests, the worker),
- * else the system's temporary folder.
+ * .cache of the node_modules nearest above this module (the checkout's, whether the module runs
+ * from the sources, the command line's bundle or the built server), else the system's temporary folder.
  */
 function cacheDir(): string {
   if (process.env.DRAWERLIGHT_NATIVE_CACHE) return process.env.DRAWERLIGHT_NATIVE_CACHE;
-  const modules = join(process.cwd(), 'node_modules');
-  return join(existsSync(modules) ? join(modules, '.cache') : tmpdir(), 'drawerlight-native');
+  // the command line's CommonJS bundle has __filename; the ES modules of the server and tests have import.meta.url
+  const here = typeof __filename === 'string' ? __filename : fileURLToPath(import.meta.url);
+  for (let dir = dirname(here); dirname(dir) !== dir; dir = dirname(dir)) {
+    if (existsSync(join(dir, 'node_modules'))) return join(dir, 'node_modules', '.cache', 'drawerlight-native');
+  }
+  return join(tmpdir(), 'drawerlight-native');
 }
 
 function compile(out: string, headers: string): void {
