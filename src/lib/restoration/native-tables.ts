@@ -23,6 +23,7 @@ import { createRequire } from 'node:module';
 import { tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
+import { threadId } from 'node:worker_threads';
 import type { ChannelLuts } from './correction';
 
 const SOURCE = String.raw`
@@ -161,9 +162,11 @@ function cacheDir(): string {
 
 function compile(out: string, headers: string): void {
   mkdirSync(dirname(out), { recursive: true });
-  // written under names of their own and renamed into place: two processes compiling at once both end whole
-  const src = `${out}.${process.pid}.c`;
-  const tmp = `${out}.${process.pid}.tmp`;
+  // written under names of their own and renamed into place: two processes or engine threads
+  // compiling at once both end whole
+  const own = `${process.pid}-${threadId}`;
+  const src = `${out}.${own}.c`;
+  const tmp = `${out}.${own}.tmp`;
   writeFileSync(src, SOURCE);
   try {
     execFileSync('cc', ['-O2', '-std=c11', '-shared', '-fPIC', '-fvisibility=hidden', `-I${headers}`, '-o', tmp, src], { stdio: ['ignore', 'ignore', 'pipe'], timeout: 60_000 });

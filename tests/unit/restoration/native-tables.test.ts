@@ -1,6 +1,7 @@
 import { execFileSync } from 'node:child_process';
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
+import { Worker } from 'node:worker_threads';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { afterAll, describe, expect, it } from 'vitest';
@@ -86,6 +87,31 @@ describe('the native table step (native-tables.ts)', () => {
     expect(() => addon.applyRgb8(new Uint16Array(30) as unknown as Uint8Array, px, t, t, t)).toThrow(/Uint8Arrays/);
     expect(() => addon.applyRgb8(px.subarray(0, 27), px.subarray(3), t, t, t)).toThrow(/overlaps/);
     expect(() => (addon.applyRgb8 as unknown as (a: unknown) => void)(px)).toThrow(/three tables/);
+  });
+});
+
+describe('the native table step in engine threads', () => {
+  it('compiles once and loads in several threads starting together from an empty cache', async () => {
+    const cache = mkdtempSync(join(tmpdir(), 'drawerlight-native-threads-'));
+    try {
+      const replies = await Promise.all(
+        [0, 1, 2].map(
+          () =>
+            new Promise<{ status: { loaded: boolean; path?: string }; first: number; last: number }>((resolve, reject) => {
+              const w = new Worker(new URL('./native-tables-thread.mjs', import.meta.url), { env: { ...process.env, DRAWERLIGHT_NATIVE_CACHE: cache } });
+              w.once('message', (m) => void w.terminate().then(() => resolve(m)));
+              w.once('error', reject);
+            }),
+        ),
+      );
+      for (const r of replies) {
+        expect(r.status.loaded).toBe(true);
+        expect(r.status.path?.startsWith(cache)).toBe(true);
+        expect([r.first, r.last]).toEqual([245, 245]);
+      }
+    } finally {
+      rmSync(cache, { recursive: true, force: true });
+    }
   });
 });
 
