@@ -8,8 +8,8 @@
  * mechanical step of looking each byte up in its channel's table, the job libvips' `maplut` does
  * and sharp does not expose. In JavaScript that step costs 17-20 ms per 3600 x 2400 scan, the
  * largest share of the command line's own work on its main thread; compiled C does it in about
- * 6.5 ms, by the same method (pair tables, see correction.ts), and in 12-13 ms within a run of the
- * command line, where libvips decoding on the other core shares the memory bandwidth.
+ * 6.5 ms, by the same method (pair tables, see correction.ts), both measured alone; within a run
+ * of the command line both take longer, libvips decoding on the other core sharing the memory.
  *
  * The C source is kept here, compiled once per machine with the system's C compiler and Node's own
  * headers (Debian's nodejs ships them in /usr/include/node) into node_modules/.cache, and loaded as
