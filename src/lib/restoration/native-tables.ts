@@ -140,6 +140,24 @@ export interface NativeTablesStatus {
 
 let state: { addon: NativeTables | null; status: NativeTablesStatus } | undefined;
 
+export interface NativeTablesSettings {
+  /** false: always use applyCorrection (default true). */
+  enabled?: boolean;
+  /** Where the compiled addon is kept (default: see {@link cacheDirs}). */
+  cacheDir?: string;
+}
+
+let settings: NativeTablesSettings = {};
+
+/**
+ * Sets where the addon is kept and whether it is used at all, for the loads that follow (an
+ * addon already loaded stays loaded in the process; only this module's choice is made again).
+ */
+export function configureNativeTables(next: NativeTablesSettings): void {
+  settings = { ...next };
+  state = undefined;
+}
+
 /** Node's headers for addons: Debian's nodejs keeps them under <prefix>/include/node. */
 function nodeHeaders(): string | null {
   const dir = join(dirname(dirname(process.execPath)), 'include', 'node');
@@ -147,18 +165,24 @@ function nodeHeaders(): string | null {
 }
 
 /**
- * DRAWERLIGHT_NATIVE_CACHE when set (a deployment whose node_modules is read-only), else the
- * .cache of the node_modules nearest above this module (the checkout's, whether the module runs
- * from the sources, the command line's bundle or the built server), else the system's temporary folder.
+ * Where the addon may be kept, in order: the configured folder alone, or else the .cache of the
+ * node_modules nearest above this module (the checkout's, whether the module runs from the sources,
+ * the command line's bundle or the built server), then the system's temporary folder (for a
+ * node_modules that cannot be written to).
  */
-function cacheDir(): string {
-  if (process.env.DRAWERLIGHT_NATIVE_CACHE) return process.env.DRAWERLIGHT_NATIVE_CACHE;
+function cacheDirs(): string[] {
+  if (settings.cacheDir) return [settings.cacheDir];
+  const dirs: string[] = [];
   // the command line's CommonJS bundle has __filename; the ES modules of the server and tests have import.meta.url
   const here = typeof __filename === 'string' ? __filename : fileURLToPath(import.meta.url);
   for (let dir = dirname(here); dirname(dir) !== dir; dir = dirname(dir)) {
-    if (existsSync(join(dir, 'node_modules'))) return join(dir, 'node_modules', '.cache', 'drawerlight-native');
+    if (existsSync(join(dir, 'node_modules'))) {
+      dirs.push(join(dir, 'node_modules', '.cache', 'drawerlight-native'));
+      break;
+    }
   }
-  return join(tmpdir(), 'drawerlight-native');
+  dirs.push(join(tmpdir(), 'drawerlight-native'));
+  return dirs;
 }
 
 function compile(out: string, headers: string): void {
@@ -168,8 +192,8 @@ function compile(out: string, headers: string): void {
   const own = `${process.pid}-${threadId}`;
   const src = `${out}.${own}.c`;
   const tmp = `${out}.${own}.tmp`;
-  writeFileSync(src, SOURCE);
   try {
+    writeFileSync(src, SOURCE);
     execFileSync('cc', ['-O2', '-std=c11', '-shared', '-fPIC', '-fvisibility=hidden', `-I${headers}`, '-o', tmp, src], { stdio: ['ignore', 'ignore', 'pipe'], timeout: 60_000 });
     renameSync(tmp, out);
     // the addons of earlier versions of the source are no longer loaded by anything
@@ -180,22 +204,35 @@ function compile(out: string, headers: string): void {
   }
 }
 
+function reasonOf(err: unknown): string {
+  const e = err as { stderr?: Buffer; message?: string };
+  return (e.stderr?.toString().trim() || e.message || String(err)).split('\n')[0];
+}
+
 function load(): { addon: NativeTables | null; status: NativeTablesStatus } {
-  if (process.env.DRAWERLIGHT_NATIVE_TABLES === '0') return { addon: null, status: { loaded: false, reason: 'turned off by DRAWERLIGHT_NATIVE_TABLES=0' } };
+  if (settings.enabled === false) return { addon: null, status: { loaded: false, reason: 'turned off (configureNativeTables)' } };
   const headers = nodeHeaders();
   if (!headers) return { addon: null, status: { loaded: false, reason: `no Node headers (node_api.h) beside ${process.execPath}` } };
   const key = createHash('sha256').update(SOURCE).update(process.arch).update(process.platform).digest('hex').slice(0, 16);
-  const path = join(cacheDir(), `tables-${key}.node`);
-  try {
-    if (!existsSync(path)) compile(path, headers);
-    const addon = createRequire(path)(path) as NativeTables;
-    if (typeof addon.applyRgb8 !== 'function') throw new Error('the addon has no applyRgb8');
-    return { addon, status: { loaded: true, path } };
-  } catch (err) {
-    const e = err as { stderr?: Buffer; message?: string };
-    const why = (e.stderr?.toString().trim() || e.message || String(err)).split('\n')[0];
-    return { addon: null, status: { loaded: false, reason: why } };
+  let reason = '';
+  for (const dir of cacheDirs()) {
+    const path = join(dir, `tables-${key}.node`);
+    try {
+      if (!existsSync(path)) compile(path, headers);
+    } catch (err) {
+      // a folder that cannot be written to: the next one; no compiler: the same in every folder
+      reason = reasonOf(err);
+      continue;
+    }
+    try {
+      const addon = createRequire(path)(path) as NativeTables;
+      if (typeof addon.applyRgb8 !== 'function') throw new Error('the addon has no applyRgb8');
+      return { addon, status: { loaded: true, path } };
+    } catch (err) {
+      return { addon: null, status: { loaded: false, reason: reasonOf(err) } };
+    }
   }
+  return { addon: null, status: { loaded: false, reason } };
 }
 
 /** The native table step, compiled and loaded on first use; null where it cannot be (see {@link nativeTablesStatus}). */

@@ -2,13 +2,13 @@ import { execFileSync } from 'node:child_process';
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { Worker } from 'node:worker_threads';
-import { join } from 'node:path';
+import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { afterAll, describe, expect, it } from 'vitest';
 import { applyCorrection, buildChannelLuts, identityCorrection } from '../../../src/lib/restoration/correction';
 import { correctionFromEstimate } from '../../../src/lib/restoration/analysis';
 import { renderCorrected } from '../../../src/lib/restoration/imaging';
-import { applyTablesNatively, nativeTables, nativeTablesStatus } from '../../../src/lib/restoration/native-tables';
+import { applyTablesNatively, configureNativeTables, nativeTables, nativeTablesStatus } from '../../../src/lib/restoration/native-tables';
 import { AGEING_MODELS, agePixels, encodeScene, generateScene } from '../../../src/lib/demo/synthetic';
 
 const ROOT = fileURLToPath(new URL('../../..', import.meta.url));
@@ -98,7 +98,7 @@ describe('the native table step in engine threads', () => {
         [0, 1, 2].map(
           () =>
             new Promise<{ status: { loaded: boolean; path?: string }; first: number; last: number }>((resolve, reject) => {
-              const w = new Worker(new URL('./native-tables-thread.mjs', import.meta.url), { env: { ...process.env, DRAWERLIGHT_NATIVE_CACHE: cache } });
+              const w = new Worker(new URL('./native-tables-thread.mjs', import.meta.url), { workerData: { cacheDir: cache } });
               w.once('message', (m) => void w.terminate().then(() => resolve(m)));
               w.once('error', reject);
             }),
@@ -131,12 +131,13 @@ describe('without the native table step', () => {
     const correction = CORRECTIONS['a dark-storage fade with stain'];
     const code = `
       import { readFileSync } from 'node:fs';
-      import { nativeTablesStatus } from './src/lib/restoration/native-tables.ts';
+      import { configureNativeTables, nativeTablesStatus } from './src/lib/restoration/native-tables.ts';
       import { renderCorrected } from './src/lib/restoration/imaging.ts';
+      configureNativeTables({ cacheDir: ${JSON.stringify(join(cache, 'empty'))} });
       const r = await renderCorrected(readFileSync(${JSON.stringify(scanFile)}), ${JSON.stringify(correction)});
       process.stdout.write(JSON.stringify({ status: nativeTablesStatus(), jpeg: r.buffer.toString('base64') }));`;
     // no cc on PATH and an empty cache: nothing to load, nothing to compile with
-    const out = JSON.parse(child(code, { PATH: '/nonexistent', DRAWERLIGHT_NATIVE_CACHE: join(cache, 'empty') })) as { status: { loaded: boolean; reason: string }; jpeg: string };
+    const out = JSON.parse(child(code, { PATH: '/nonexistent' })) as { status: { loaded: boolean; reason: string }; jpeg: string };
     expect(out.status.loaded).toBe(false);
     expect(out.status.reason).toMatch(/cc/);
     const native = await renderCorrected(scan, correction);
@@ -144,8 +145,34 @@ describe('without the native table step', () => {
     expect(Buffer.compare(Buffer.from(out.jpeg, 'base64'), native.buffer)).toBe(0);
   });
 
+  it('says why when its folder cannot be written to, and leaves the pixels to applyCorrection', () => {
+    const luts = buildChannelLuts(CORRECTIONS['a light fade'], 8, 8);
+    const pixels = noise(3000, 6);
+    // a folder inside a file: no one, root included, can make it
+    const file = join(mkdtempSync(join(tmpdir(), 'drawerlight-native-file-')), 'a-file');
+    writeFileSync(file, 'not a folder');
+    try {
+      configureNativeTables({ cacheDir: join(file, 'cache') });
+      const status = nativeTablesStatus();
+      expect(status.loaded).toBe(false);
+      expect(status.reason).toMatch(/ENOTDIR/);
+      expect(applyTablesNatively(pixels, 3, luts, pixels)).toBe(false);
+    } finally {
+      configureNativeTables({});
+      rmSync(dirname(file), { recursive: true, force: true });
+    }
+  });
+
   it('can be turned off, and says so', () => {
-    const out = child(`import { nativeTablesStatus } from './src/lib/restoration/native-tables.ts'; process.stdout.write(JSON.stringify(nativeTablesStatus()));`, { DRAWERLIGHT_NATIVE_TABLES: '0' });
-    expect(JSON.parse(out)).toEqual({ loaded: false, reason: 'turned off by DRAWERLIGHT_NATIVE_TABLES=0' });
+    const luts = buildChannelLuts(CORRECTIONS['a light fade'], 8, 8);
+    const pixels = noise(3000, 5);
+    try {
+      configureNativeTables({ enabled: false });
+      expect(nativeTablesStatus()).toEqual({ loaded: false, reason: 'turned off (configureNativeTables)' });
+      expect(applyTablesNatively(pixels, 3, luts, pixels)).toBe(false);
+    } finally {
+      configureNativeTables({});
+    }
+    expect(nativeTablesStatus().loaded).toBe(true);
   });
 });
