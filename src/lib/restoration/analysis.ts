@@ -13,7 +13,7 @@
  * unfaded print unfaded, at the price of leaving an even, all-dye loss of contrast alone.
  */
 import { densityFromReflectance, reflectanceFromDensity, srgbDecode, srgbEncode, srgbToLab, deltaE2000, type Triplet } from './colour';
-import { CORRECTION_VERSION, type Correction } from './correction';
+import { CORRECTION_VERSION, LITTLE_ENDIAN, type Correction } from './correction';
 
 /** Pixels handed to the analysis: interleaved, sRGB-encoded, already oriented and reduced. */
 export interface ReducedPixels {
@@ -208,8 +208,6 @@ function histograms(v: Uint8Array, ch: number, width: number, r: Rect): { h: Uin
 }
 
 const HISTOGRAM_SETS = 4;
-/** Whether a 32-bit word holds its bytes lowest first, as every browser and server CPU in use does. */
-const LITTLE_ENDIAN = new Uint8Array(new Uint32Array([1]).buffer)[0] === 1;
 
 /** Pixels `from` to `to` (pixel indices) into the first set of bins, one byte at a time. */
 function histogramRowBytes(v: Uint8Array, ch: number, from: number, to: number, sets: Uint32Array): void {

@@ -147,7 +147,7 @@ export class CorrectionInputError extends Error {
 }
 
 /** Whether 32-bit words hold their bytes lowest first (every browser and server CPU in use does). */
-const LITTLE_ENDIAN = new Uint8Array(new Uint32Array([1]).buffer)[0] === 1;
+export const LITTLE_ENDIAN = new Uint8Array(new Uint32Array([1]).buffer)[0] === 1;
 
 /** Below this many bytes the pair tables cost more to build than they save. */
 const PAIR_TABLES_FROM = 1 << 20;
