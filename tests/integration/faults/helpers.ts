@@ -71,8 +71,11 @@ export async function originalsOnDisk(stack: IsolatedStack, archiveId: string): 
   return rows.map((r) => ({ id: r.id, sha256: r.sha256, storageKey: r.storage_key, onDisk: sha256(fs.readFileSync(path.join(stack.storageDir, r.storage_key))) }));
 }
 
-/** Polls `check` every 200 ms until it returns a value (or the time runs out). */
-export async function until<T>(what: string, check: () => Promise<T | undefined | null | false>, timeoutMs = 60_000): Promise<T> {
+/**
+ * Polls `check` every 200 ms until it returns a value (or the time runs out). `seen`, when given,
+ * says what was last observed, for the message of a timeout.
+ */
+export async function until<T>(what: string, check: () => Promise<T | undefined | null | false>, timeoutMs = 60_000, seen?: () => string): Promise<T> {
   const deadline = Date.now() + timeoutMs;
   let lastErr: unknown;
   while (Date.now() < deadline) {
@@ -84,5 +87,6 @@ export async function until<T>(what: string, check: () => Promise<T | undefined 
     }
     await sleep(200);
   }
-  throw new Error(`${what} did not happen within ${timeoutMs / 1000} s${lastErr ? ` (last error: ${(lastErr as Error).message})` : ''}`);
+  const last = seen ? `; last seen: ${seen()}` : '';
+  throw new Error(`${what} did not happen within ${timeoutMs / 1000} s${lastErr ? ` (last error: ${(lastErr as Error).message})` : ''}${last}`);
 }

@@ -7,7 +7,9 @@ import { until } from './helpers.ts';
 let stack: IsolatedStack;
 let a: TestArchive;
 beforeAll(async () => {
-  stack = await startIsolatedStack({ label: 'pgrestart', workers: 1 });
+  // The worker starts once the batch is uploaded (below), so that the restart always falls in the
+  // middle of its work, however fast the uploads or the worker are on the machine of the day.
+  stack = await startIsolatedStack({ label: 'pgrestart', workers: 0 });
   a = await stack.makeArchive('pgrestart');
 });
 afterAll(() => stack?.stop());
@@ -19,13 +21,22 @@ describe('PostgreSQL restarted while a batch is processing', () => {
     const files = await generatedScans(24, 8000, { width: 400, height: 300 });
     const replies = await uploadAll(editor, batchId, files, 4);
     expect(replies.map((r) => r.status)).toEqual(files.map(() => 201));
+    expect((await editor.get(`/api/batches/${batchId}`)).body.counts).toMatchObject({ queued: 24, ready: 0 });
+    stack.startWorker();
     const serverPid = stack.serverPid();
     const workerPids = stack.workerPids();
 
-    await until('a few prints ready and others waiting', async () => {
-      const c = (await editor.get(`/api/batches/${batchId}`)).body.counts;
-      return c.ready >= 2 && c.queued + c.analysing > 4 && c;
-    });
+    let counts: unknown;
+    await until(
+      'a few prints ready and others waiting',
+      async () => {
+        const c = (await editor.get(`/api/batches/${batchId}`)).body.counts;
+        counts = c;
+        return c.ready >= 2 && c.queued + c.analysing > 4 && c;
+      },
+      60_000,
+      () => JSON.stringify(counts),
+    );
     stack.stopPostgres();
     // While the database is away the server answers (an error), it does not hang or die.
     const during = await editor.get(`/api/batches/${batchId}`);
