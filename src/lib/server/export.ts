@@ -6,12 +6,12 @@
  */
 import { createHash } from 'node:crypto';
 import { PassThrough } from 'node:stream';
-import { stringify } from 'csv-stringify/sync';
 import sharp from 'sharp';
 import { Op, QueryTypes } from 'sequelize';
 import { Archive, ArchiveExport, Batch, Item, Original, User, db } from '../../../db/index.ts';
 import type { ExportRequest, ExportSelection, ExportStatus } from '../archive/exports.ts';
 import { checkBag, describeBagReport } from '../archive/bagit.ts';
+import { spreadsheetCsv } from '../archive/csv.ts';
 import { parsePrintDate, type PrintDate } from '../archive/edtf.ts';
 import { buildExif, buildXmp, type EmbeddedMetadata } from '../archive/embed.ts';
 import { DEFAULT_NAME_PATTERN, NameBook, baseName, folderFor } from '../archive/naming.ts';
@@ -314,7 +314,7 @@ export async function runExport(exportId: string): Promise<void> {
         }
       }
     }
-    await bag.addPayload('photos.csv', Buffer.from('\ufeff' + stringify(records), 'utf8'));
+    await bag.addPayload('photos.csv', Buffer.from(spreadsheetCsv(records), 'utf8'));
     await bag.finish([
       ['Source-Organization', archive.name],
       ['External-Description', `Photographs of the ${archive.name}: corrected JPEGs with captions embedded (XMP), ${opts.includeOriginals ? 'the untouched scans alongside, ' : ''}and photos.csv listing every print.`],
