@@ -10,7 +10,6 @@ cd "$root"
 ensure_node_modules "$root"
 ensure_debian_package chromium /usr/bin/chromium
 ensure_debian_package libjemalloc2 /usr/lib/x86_64-linux-gnu/libjemalloc.so.2
-ensure_debian_package gcc /usr/bin/cc
 
 throwaway_stack "$root" test
 trap 'throwaway_cleanup "$root"' EXIT

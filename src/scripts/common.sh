@@ -11,8 +11,8 @@ ensure_node_modules() {
   fi
 }
 
-# Debian packages the app uses besides PostgreSQL, both optional: jemalloc for the image engine, gcc
-# for its native table step (src/lib/restoration/native-tables.ts).
+# A Debian package the app or its tests use besides PostgreSQL (jemalloc for the image engine,
+# Chromium for the browser tests), installed when the probed file is missing.
 ensure_debian_package() {
   local pkg=$1 probe=$2
   if [ ! -e "$probe" ]; then

@@ -14,8 +14,7 @@ import pLimit from 'p-limit';
 import sharp from 'sharp';
 import { analyseAndRender, loadReduced, readScanSync, ScanRejected } from '../lib/restoration/imaging';
 import { analysePixels, poolAnalyses, type Analysis } from '../lib/restoration/analysis';
-import { isIdentity, type Correction } from '../lib/restoration/correction';
-import { nativeTablesStatus } from '../lib/restoration/native-tables';
+import type { Correction } from '../lib/restoration/correction';
 
 const USAGE = `Usage: npm run correct -- --out <dir> [--strength 0..1] [--quality N] [--pool] <files or folders...>
 
@@ -235,11 +234,6 @@ async function main(): Promise<number> {
     failures,
   };
   await writeFile(join(opts.out, 'report.json'), JSON.stringify(report, null, 2) + '\n');
-  const native = nativeTablesStatus();
-  // only asked once a scan has been corrected (that is when the step is compiled or loaded)
-  if (report.scans.some((s) => !isIdentity(s.correction)) && !native.loaded) {
-    process.stderr.write(`(the correction tables were applied in JavaScript, about three times slower than natively: ${native.reason})\n`);
-  }
   const seconds = ((Date.now() - started) / 1000).toFixed(1);
   process.stderr.write(`${report.scans.length} corrected, ${failures.length} not, in ${seconds} s; report in ${join(opts.out, 'report.json')}\n`);
   return failures.length > 0 ? 1 : 0;

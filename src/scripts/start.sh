@@ -7,7 +7,6 @@ cd "$root"
 
 ensure_node_modules "$root"
 ensure_debian_package libjemalloc2 /usr/lib/x86_64-linux-gnu/libjemalloc.so.2
-ensure_debian_package gcc /usr/bin/cc
 # PostgreSQL itself is installed by db/cluster.sh when missing.
 parent=$(cluster_parent "$root")
 export DRAWERLIGHT_PG_DIR="$parent/dev"

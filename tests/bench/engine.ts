@@ -20,7 +20,6 @@ import sharp from 'sharp';
 import { AGEING_MODELS, agePixels, encodeScene, generateScene, type Ageing } from '../../src/lib/demo/synthetic';
 import { analyseForReview, analyseScan, loadFull, loadReduced, deriveReduced, renderCorrected, analyseAndRender, reviewCopySide } from '../../src/lib/restoration/imaging';
 import { analysePixels, samplePixels } from '../../src/lib/restoration/analysis';
-import { nativeTablesStatus } from '../../src/lib/restoration/native-tables';
 import { describeFloor, measureFloor, singleCoreAgain } from './floor';
 
 const ROOT = fileURLToPath(new URL('../..', import.meta.url));
@@ -93,7 +92,7 @@ function runCli(out: string, inputs: string[] = files): Promise<CliRun> {
   return new Promise((resolvePromise) => {
     const env = { ...process.env };
     // what `npm run correct` runs (package.json), without npm's own start-up
-    const command = ['sh', join(ROOT, 'src/scripts/engine-env.sh'), '--offline', process.execPath, join(ROOT, 'src/scripts/bundled.cjs'), join(ROOT, 'src/scripts/correct.ts'), '--out', out, ...inputs];
+    const command = ['sh', join(ROOT, 'src/scripts/engine-env.sh'), '--offline', process.execPath, '--import', 'tsx', join(ROOT, 'src/scripts/correct.ts'), '--out', out, ...inputs];
     const timed = existsSync(GNU_TIME);
     const [exe, ...args] = timed ? [GNU_TIME, '-f', 'bench-time %e %U %S %M', ...command] : command;
     const t0 = performance.now();
@@ -155,10 +154,8 @@ async function main(): Promise<void> {
   console.log(`bench_process_peak_rss_mb: ${inProcessPeak.toFixed(0)}`);
 
   console.log(`\ncommand line (as \`npm run correct\` runs it, through src/scripts/engine-env.sh), ${files.length} scans:`);
-  const native = nativeTablesStatus();
-  console.log(`correction tables applied ${native.loaded ? 'natively (src/lib/restoration/native-tables.ts)' : `in JavaScript: ${native.reason}`}`);
   const out = join(work, 'out');
-  // one scan first, not counted: builds the command line's bundle as any earlier run would have
+  // one scan first, not counted: fills tsx's cache of transpiled sources and the page cache, as any earlier run would have
   await runCli(join(work, 'warm'), files.slice(0, 1));
   // Five runs of the command line, each right after the floor is measured again (fastest of three
   // passes over the same 12 scans, as at the start): both sides sample the same moments of a

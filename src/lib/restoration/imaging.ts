@@ -11,7 +11,6 @@ import sharp from 'sharp';
 import { analysePixels, samplePixels, type Analysis, type ReducedPixels } from './analysis';
 import { applyCorrection, buildChannelLuts, correctionSchema, isIdentity, type Correction } from './correction';
 import { ScanRejected } from './errors';
-import { applyTablesNatively } from './native-tables';
 
 export { ScanRejected } from './errors';
 
@@ -513,10 +512,9 @@ async function renderFromFull(full: FullPixels, correction: Correction, options:
   // an unfaded print on 8-bit pixels needs no per-pixel pass at all
   const untouched = isIdentity(c) && src.depth === 8;
   const luts = untouched ? undefined : buildChannelLuts(c, src.depth, 8);
-  // 8-bit pixels are corrected in place (by the native table step when this machine has it, see
-  // native-tables.ts: the same bytes, a third of the time); 16-bit ones go to a new 8-bit buffer
+  // 8-bit pixels are corrected in place; 16-bit ones go to a new 8-bit buffer
   const inPlace = src.depth === 8 ? (src.data as Uint8Array) : undefined;
-  const data = !luts ? (src.data as Uint8Array) : inPlace && applyTablesNatively(inPlace, src.channels, luts, inPlace) ? inPlace : (applyCorrection(src.data, src.channels, luts, inPlace) as Uint8Array);
+  const data = luts ? (applyCorrection(src.data, src.channels, luts, inPlace) as Uint8Array) : (src.data as Uint8Array);
   const corrected: ReducedPixels = { data, width: src.width, height: src.height, channels: src.channels, depth: 8 };
   let out = rawImage(corrected);
   const exif = meaningfulExif(full.probe.exif);
