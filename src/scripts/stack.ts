@@ -1,6 +1,7 @@
 /**
  * What `npm start` runs after the shell bootstrap: migrate, seed a new database with the demo,
- * build, then serve with the worker and the mail fake; Ctrl-C stops them all and the database.
+ * build, then serve with the worker and the mail fake. A child that dies is started again with
+ * backoff and a log line; only Ctrl-C (SIGINT), SIGTERM or SIGHUP stops them all and the database.
  */
 import { execFileSync, spawnSync } from 'node:child_process';
 import fs from 'node:fs';
@@ -27,9 +28,14 @@ function newestMtime(dir: string): number {
   return newest;
 }
 
-/** Builds unless dist/ is newer than every source file (a second start skips the build). */
+/**
+ * Builds unless the build (DRAWERLIGHT_OUT_DIR, as astro.config.mjs names it) is newer than every
+ * source file: a second start skips the build. A test run's stack never builds: tests/run.sh made
+ * its build, which the other tests of the run are using.
+ */
 function build() {
-  const entry = path.join(root, 'dist/app/server/entry.mjs');
+  const entry = path.join(root, process.env.DRAWERLIGHT_OUT_DIR ?? 'dist/app', 'server/entry.mjs');
+  if (c.env === 'test' && fs.existsSync(entry)) return;
   const sources = Math.max(
     newestMtime(path.join(root, 'src')),
     newestMtime(path.join(root, 'db')),
@@ -60,13 +66,62 @@ for (const [p, what] of [[port, 'the web server'], [c.smtp.port, 'the mail fake'
 }
 
 const env = { ...process.env, HOST: '127.0.0.1', PORT: String(port) };
-const procs: StackProcess[] = [
-  startProcess('mail fake', process.execPath, ['--import', 'tsx', 'src/scripts/mail-fake.ts'], env, path.join(logDir, 'mail-fake.log')),
-  startProcess('web server', process.execPath, ['--import', 'tsx', 'src/scripts/serve.ts'], env),
-  startProcess('worker', process.execPath, ['--import', 'tsx', 'jobs/worker.ts'], workerEnv(env), path.join(logDir, 'worker.log')),
+let stopping = false;
+
+/** First wait before restarting a child that died; doubled after each quick death, up to MAX. */
+const RESTART_FIRST_MS = 1000;
+const RESTART_MAX_MS = 30_000;
+/** A child that ran this long before dying is restarted after the first wait again. */
+const HEALTHY_AFTER_MS = 60_000;
+
+/**
+ * One child of the stack, started again with backoff whenever it dies (a crash must not cut the
+ * uploads the web server is taking, nor stop the worker's queue), until the stack stops.
+ */
+class Supervised {
+  current: StackProcess;
+  private startedAt = Date.now();
+  private delay = RESTART_FIRST_MS;
+  private timer: NodeJS.Timeout | undefined;
+  restarts = 0;
+
+  constructor(
+    readonly name: string,
+    private readonly launch: () => StackProcess,
+  ) {
+    this.current = this.start();
+  }
+
+  private start(): StackProcess {
+    const p = this.launch();
+    this.startedAt = Date.now();
+    p.child.once('exit', (code, signal) => {
+      if (stopping) return;
+      if (Date.now() - this.startedAt >= HEALTHY_AFTER_MS) this.delay = RESTART_FIRST_MS;
+      const wait = this.delay;
+      this.delay = Math.min(RESTART_MAX_MS, this.delay * 2);
+      this.restarts++;
+      console.error(`drawerlight: the ${this.name} stopped unexpectedly (${signal ?? `exit ${code}`}); starting it again in ${wait / 1000} s (restart ${this.restarts}; logs in ${logDir})`);
+      this.timer = setTimeout(() => {
+        this.timer = undefined;
+        if (!stopping) this.current = this.start();
+      }, wait);
+    });
+    return p;
+  }
+
+  async stop(): Promise<void> {
+    clearTimeout(this.timer);
+    await this.current.stop();
+  }
+}
+
+const procs = [
+  new Supervised('mail fake', () => startProcess('mail fake', process.execPath, ['--import', 'tsx', 'src/scripts/mail-fake.ts'], env, path.join(logDir, 'mail-fake.log'))),
+  new Supervised('web server', () => startProcess('web server', process.execPath, ['--import', 'tsx', 'src/scripts/serve.ts'], env)),
+  new Supervised('worker', () => startProcess('worker', process.execPath, ['--import', 'tsx', 'jobs/worker.ts'], workerEnv(env), path.join(logDir, 'worker.log'))),
 ];
 
-let stopping = false;
 async function stopAll(code: number) {
   if (stopping) return;
   stopping = true;
@@ -76,16 +131,10 @@ async function stopAll(code: number) {
   console.log('drawerlight: stopped.');
   process.exit(code);
 }
+// Only these stop the whole stack; a child that dies is started again (Supervised).
 process.on('SIGINT', () => void stopAll(0));
 process.on('SIGTERM', () => void stopAll(0));
-for (const p of procs) {
-  p.child.once('exit', (code, signal) => {
-    if (!stopping) {
-      console.error(`drawerlight: the ${p.name} stopped unexpectedly (${signal ?? `exit ${code}`}); logs in ${logDir}`);
-      void stopAll(1);
-    }
-  });
-}
+process.on('SIGHUP', () => void stopAll(0));
 
 await waitForPort(port, 60_000, 'the web server');
 console.log(`
