@@ -1,5 +1,5 @@
 import { useEffect, useMemo, useRef, useState } from 'react';
-import { describePrintDate } from '../lib/archive/edtf.ts';
+import { dateForField, describePrintDate } from '../lib/archive/edtf.ts';
 import { metadataSchema, suggestionSchema, type ItemMetadata, type SuggestionView } from '../lib/archive/metadata.ts';
 import { api, ApiError } from './api-client.ts';
 
@@ -23,7 +23,7 @@ interface Draft {
 
 const emptyDraft = (m?: ItemMetadata): Draft => ({
   caption: m?.caption ?? '',
-  dateEdtf: m?.dateEdtf ?? '',
+  dateEdtf: dateForField(m?.dateEdtf),
   place: m?.place ?? '',
   people: m?.people ?? [],
   envelope: m?.envelope ?? '',
@@ -39,10 +39,12 @@ function fieldsOf(result: { success: boolean; error?: { issues: { path: (string 
 
 /** The date as one types it, in words, or what is wrong with it. */
 function DateHint({ value, id }: { value: string; id: string }) {
-  if (!value.trim()) return <p id={id} className="mt-1 text-xs text-ink-500">EDTF: 1981, 1981-07, 1981~ (about), 1981? (perhaps), 198X (the 1980s), 1981-22 (summer), 1980/1985.</p>;
+  if (!value.trim()) return <p id={id} className="mt-1 text-xs text-ink-500">As you would say it (summer 1981, early 80s, about 1975, between 1978 and 1982) or in EDTF (1981-22, 198X, 1975~).</p>;
   const r = describePrintDate(value);
   return r.ok ? (
-    <p id={id} className="mt-1 text-sm text-lamp-700" data-date-words>{r.date.words}</p>
+    <p id={id} className="mt-1 text-sm text-lamp-700" data-date-words>
+      {r.date.words} <span className="text-xs text-ink-500">· stored as EDTF <code data-date-edtf>{r.date.edtf}</code></span>
+    </p>
   ) : (
     <p id={id} className="mt-1 text-sm text-danger-700" data-date-error>{r.message}</p>
   );
@@ -292,8 +294,8 @@ export default function CaptionEditor({ batchId, items: initial, canEdit, pendin
               </div>
               <div className="grid gap-3 sm:grid-cols-2">
                 <div>
-                  <label className="label" htmlFor="f-date">Date (EDTF)</label>
-                  <input id="f-date" className="field font-mono" value={draft.dateEdtf} onChange={(e) => setDraft({ ...draft, dateEdtf: e.target.value })} aria-invalid={!!errors.dateEdtf} aria-describedby="h-date" placeholder="1981~" />
+                  <label className="label" htmlFor="f-date">Date</label>
+                  <input id="f-date" className="field" value={draft.dateEdtf} onChange={(e) => setDraft({ ...draft, dateEdtf: e.target.value })} aria-invalid={!!errors.dateEdtf} aria-describedby="h-date" placeholder="summer 1981" />
                   <DateHint id="h-date" value={draft.dateEdtf} />
                 </div>
                 <div>
@@ -360,8 +362,8 @@ export default function CaptionEditor({ batchId, items: initial, canEdit, pendin
             <p className="text-sm text-ink-700">Fill in only what the chosen prints share; empty fields are left as they are. People are added to those already named.</p>
             <div className="grid gap-3 sm:grid-cols-3">
               <div>
-                <label className="label" htmlFor="b-date">Date (EDTF)</label>
-                <input id="b-date" className="field font-mono" value={bulk.dateEdtf} onChange={(e) => setBulk({ ...bulk, dateEdtf: e.target.value })} aria-describedby="h-bdate" />
+                <label className="label" htmlFor="b-date">Date</label>
+                <input id="b-date" className="field" value={bulk.dateEdtf} onChange={(e) => setBulk({ ...bulk, dateEdtf: e.target.value })} aria-describedby="h-bdate" />
                 <DateHint id="h-bdate" value={bulk.dateEdtf} />
               </div>
               <div>

@@ -1,9 +1,11 @@
 /**
  * Dates of prints in EDTF (Library of Congress Extended Date/Time Format, ISO 8601-2), parsed by
  * the `edtf` package and put into plain words: "about 1981", "the 1980s", "summer 1981",
- * "between 1980 and 1985". Pure code, shared by the server and the caption form in the browser.
+ * "between 1980 and 1985". A date may be typed as EDTF or as words (dates-in-words.ts).
+ * Pure code, shared by the server and the caption form in the browser.
  */
 import edtf, { parse, type EdtfValue } from 'edtf';
+import { edtfFromWords } from './dates-in-words.ts';
 
 /**
  * The kind of a parsed value, from the grammar's parse tree. EDTF.js's own `type` getter returns
@@ -108,6 +110,18 @@ function pointWords(v: EdtfValue, kind: Kind): string {
   return qualified(v, `${Number(v.values[2])} ${month} ${year}`);
 }
 
+/** "the early 1980s", "late 1981": the spans that dates-in-words.ts writes for those words. */
+function partWords(value: string): string | null {
+  let m = /^(\d{3})0\/\1(3)~$|^(\d{3})3~\/\3(7)~$|^(\d{3})7~\/\5(9)$/.exec(value);
+  if (m) {
+    const decade = `${m[1] ?? m[3] ?? m[5]}0`;
+    return `the ${{ '3': 'early', '7': 'mid', '9': 'late' }[(m[2] ?? m[4] ?? m[6]) as '3' | '7' | '9']} ${decade}s`;
+  }
+  m = /^(\d{4})-(01|05|09)\/\1-(04|08|12)$/.exec(value);
+  if (m && Number(m[3]) - Number(m[2]) === 3) return `${{ '01': 'early', '05': 'mid', '09': 'late' }[m[2] as '01' | '05' | '09']} ${m[1]}`;
+  return null;
+}
+
 function folderOf(v: EdtfValue, kind: Kind): string {
   const year = yearOf(v, kind);
   if (kind === 'Decade' || kind === 'Century') return `${year}s`;
@@ -132,30 +146,46 @@ function isExact(v: EdtfValue, kind: Kind): boolean {
   return kind === 'Date' && (v.precision ?? 0) === 3 && !bits(v.approximate, ~0) && !bits(v.uncertain, ~0) && !bits(v.unspecified, ~0);
 }
 
+/** EDTF's parse tree and value of `text`, or null when it is not EDTF at all. */
+function readEdtf(text: string): { tree: { type: Kind; values: unknown[] }; v: EdtfValue } | null {
+  try {
+    return { tree: parse(text) as { type: Kind; values: unknown[] }, v: edtf(text) };
+  } catch {
+    return null;
+  }
+}
+
 /**
- * Parses an EDTF date. Accepts the forms families need: "1981", "1981-07", "1981-07-15",
- * "1981~" (about), "1981?" (perhaps), "1981%" (both), "198X" (the 1980s), "1981-22" (summer),
- * "1980/1985" (between), "/1985" and "1985/" (an end unknown), "../1985" and "1985/.." (open).
+ * Parses a print's date, typed as EDTF ("1981", "1981-07", "1981~", "198X", "1981-22",
+ * "1980/1985", "/1985", "1985/..") or as words ("summer 1981", "early 80s", "about 1975",
+ * "between 1978 and 1982": see DATE_PHRASES). What words give is checked as EDTF like the rest.
  * @throws {DateNotUnderstood}
  */
 export function parsePrintDate(input: string): PrintDate {
   const text = input.trim();
   if (!text) throw new DateNotUnderstood(input, 'Write a date, or leave the field empty.');
-  let v: EdtfValue;
-  let tree: { type: Kind; values: unknown[] };
-  try {
-    tree = parse(text) as typeof tree;
-    v = edtf(text);
-  } catch {
-    throw new DateNotUnderstood(input, `"${text}" is not an EDTF date: try 1981, 1981-07, 1981~ (about), 198X (the 1980s) or 1980/1985.`);
+  let read = readEdtf(text);
+  // two digits alone are a century in EDTF ("81" the 8100s), never what a family means: read as words
+  if (!read || read.tree.type === 'Century') {
+    const words = edtfFromWords(text);
+    if (words && 'error' in words) throw new DateNotUnderstood(input, words.error);
+    if (words) {
+      read = readEdtf(words.edtf);
+      if (!read && /\//.test(words.edtf)) throw new DateNotUnderstood(input, `"${text}" ends before it starts: put the earlier date first.`);
+    } else if (read) {
+      throw new DateNotUnderstood(input, `"${text}" reads as a century in EDTF; write the full year (1981) or 19XX for the 1900s.`);
+    }
+    if (!read) {
+      throw new DateNotUnderstood(
+        input,
+        `"${text}" is not a date we can read: try 1981, July 1981, summer 1981, about 1975, early 80s, between 1978 and 1982, or EDTF such as 1981~ or 198X.`,
+      );
+    }
   }
+  const { tree, v } = read;
   const kind = tree.type;
   if (kind === 'List' || kind === 'Set') {
     throw new DateNotUnderstood(input, 'Lists and sets of dates are not supported: give one date or a span such as 1980/1985.');
-  }
-  if (kind === 'Century') {
-    // EDTF reads two digits as a century: "81" would be the 8100s, never what a family means.
-    throw new DateNotUnderstood(input, `"${text}" reads as a century in EDTF; write the full year (1981) or 19XX for the 1900s.`);
   }
   const latest = new Date().getUTCFullYear() + 1;
   const firstYear = kind === 'Interval' ? Number(v.lower?.values?.[0] ?? v.upper?.values?.[0]) : yearOf(v, kind);
@@ -167,14 +197,14 @@ export function parsePrintDate(input: string): PrintDate {
     const lk: Kind = ends[0]?.type ?? 'Date';
     const uk: Kind = ends[1]?.type ?? 'Date';
     if (lk === 'Century' || uk === 'Century') throw new DateNotUnderstood(input, `"${text}" has a century at one end; write full years, e.g. 1980/1985.`);
-    const openStart = text.startsWith('..');
-    const openEnd = text.endsWith('..');
+    const openStart = v.edtf.startsWith('..');
+    const openEnd = v.edtf.endsWith('..');
     if (!lower && !upper) throw new DateNotUnderstood(input, 'A span needs at least one known end, e.g. 1980/1985 or /1985.');
     let words: string;
     if (lower && upper) {
       const a = pointWords(lower, lk);
       const b = pointWords(upper, uk);
-      words = a === b ? a : `between ${a} and ${b}`;
+      words = partWords(v.edtf) ?? (a === b ? a : `between ${a} and ${b}`);
     } else if (upper) words = openStart ? `${pointWords(upper, uk)} or earlier` : `by ${pointWords(upper, uk)} (start unknown)`;
     else words = openEnd ? `${pointWords(lower!, lk)} or later` : `from ${pointWords(lower!, lk)} (end unknown)`;
     const first = lower ?? upper!;
@@ -216,4 +246,15 @@ export function dateInWords(value: string | null | undefined): string {
   if (!value) return '';
   const r = describePrintDate(value);
   return r.ok ? r.date.words : value;
+}
+
+/**
+ * A stored EDTF value as the date field shows it: in words when the words read back to the very
+ * same EDTF (so saving the form again changes nothing), otherwise the EDTF itself.
+ */
+export function dateForField(value: string | null | undefined): string {
+  if (!value) return '';
+  const words = dateInWords(value);
+  const back = describePrintDate(words);
+  return back.ok && back.date.edtf === value ? words : value;
 }

@@ -58,8 +58,8 @@ describe('EDTF dates of prints', () => {
   });
 
   it('explains what it cannot read instead of guessing', () => {
-    // "81" is a century in EDTF level 2 (the 8100s): refused rather than misread.
-    for (const bad of ['nonsense', '1981-13', 'summer 81', '', '[1981,1982]', '81', '2999']) {
+    // "05" could be 1905 or 2005; "1981-13" is neither a month nor a span of years.
+    for (const bad of ['nonsense', '1981-13', 'summer 05', '', '[1981,1982]', '05', '2999', 'between 1985 and 1980', '31 February 1981']) {
       const r = describePrintDate(bad);
       expect(r.ok, bad).toBe(false);
       if (!r.ok) expect(r.message.length).toBeGreaterThan(10);
