@@ -4,12 +4,48 @@ import { createReadStream } from 'node:fs';
 import fs from 'node:fs/promises';
 import path from 'node:path';
 import { promisify } from 'node:util';
+import { QueryTypes } from 'sequelize';
+import { db } from '../../../db/index.ts';
 import { config } from './config.ts';
+import { derivedKeys } from './processing.ts';
+import { STORED_FOLDERS } from './storage.ts';
 
 const run = promisify(execFile);
 
-/** Folders of storage/ that a backup carries: originals, every derived image and finished exports. */
-const CARRIED = ['originals', 'renders', 'previews', 'thumbs', 'derived', 'exports', 'rescans'];
+/**
+ * Folders of storage/ that a backup carries: those the storage module lists as carried, and any
+ * folder it does not list at all (a kind of file added without a word there is carried rather than lost).
+ */
+async function carriedFolders(storageDir: string): Promise<string[]> {
+  const present = (await fs.readdir(storageDir, { withFileTypes: true }).catch(() => [])).filter((e) => e.isDirectory() && !e.name.startsWith('.')).map((e) => e.name);
+  const listed = STORED_FOLDERS as Record<string, 'carried' | 'left'>;
+  return present.filter((name) => listed[name] !== 'left').sort();
+}
+
+/**
+ * Every storage key the database names: originals, each item's small copies and render (the
+ * thumbnail and preview of the correction it shows included), finished exports' zips.
+ */
+export async function keysNamedByDatabase(): Promise<string[]> {
+  const rows = await db().query<{ id: string; thumb_key: string | null; preview_key: string | null; render_key: string | null; preview_version: number | null }>(
+    'SELECT id, thumb_key, preview_key, render_key, preview_version FROM items',
+    { type: QueryTypes.SELECT },
+  );
+  const keys = new Set<string>();
+  for (const r of rows) {
+    for (const k of [r.thumb_key, r.preview_key, r.render_key]) if (k) keys.add(k);
+    if (r.preview_version) {
+      keys.add(derivedKeys.renderThumbnail(r.id, r.preview_version));
+      keys.add(derivedKeys.renderPreview(r.id, r.preview_version));
+    }
+  }
+  const others = await db().query<{ key: string }>(
+    `SELECT storage_key AS key FROM originals UNION ALL SELECT zip_key AS key FROM exports WHERE state = 'ready' AND zip_key IS NOT NULL`,
+    { type: QueryTypes.SELECT },
+  );
+  for (const r of others) keys.add(r.key);
+  return [...keys].sort();
+}
 export const BACKUP_FORMAT = 'drawerlight-backup/1';
 
 async function pgBin(tool: 'pg_dump' | 'pg_restore'): Promise<string> {
@@ -56,7 +92,7 @@ export async function backup(dir: string): Promise<BackupSummary> {
   await run(await pgBin('pg_dump'), ['--format=custom', '--no-owner', '--no-privileges', `--file=${path.join(dir, 'database.dump')}`, c.databaseUrl]);
   const lines: string[] = [];
   let bytes = 0;
-  for (const folder of CARRIED) {
+  for (const folder of await carriedFolders(c.storageDir)) {
     for (const file of await walk(path.join(c.storageDir, folder))) {
       const rel = path.relative(c.storageDir, file).split(path.sep).join('/');
       const target = path.join(dir, 'files', rel);
@@ -82,7 +118,9 @@ export async function backup(dir: string): Promise<BackupSummary> {
 
 /**
  * Restores a backup into an empty install: refuses a database that already has tables or a
- * storage folder that already holds originals, checks every file's SHA-256 before copying it.
+ * storage folder that already holds originals, checks every file's SHA-256 before copying it,
+ * and at the end checks that every file the restored database names is there.
+ * @throws when a file the database names is missing after the copy (the restore is incomplete)
  */
 export async function restore(dir: string, opts: { tablesInDatabase: () => Promise<number> }): Promise<BackupSummary> {
   const c = config();
@@ -111,6 +149,13 @@ export async function restore(dir: string, opts: { tablesInDatabase: () => Promi
     await fs.mkdir(path.dirname(target), { recursive: true });
     await fs.copyFile(path.join(dir, 'files', rel), target);
     if (rel.startsWith('originals/')) await fs.chmod(target, 0o444);
+  }
+  const missing: string[] = [];
+  for (const key of await keysNamedByDatabase()) {
+    if (!(await fs.stat(path.join(c.storageDir, key)).then((st) => st.isFile(), () => false))) missing.push(key);
+  }
+  if (missing.length) {
+    throw new Error(`The restore is incomplete: ${missing.length} file(s) the database names are not in the backup, e.g. ${missing.slice(0, 3).join(', ')}. Restore from another backup.`);
   }
   return summary;
 }

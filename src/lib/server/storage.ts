@@ -50,6 +50,35 @@ export class StorageKeyRefused extends AppError {
   }
 }
 
+/**
+ * Every top-level folder of the store and whether a backup carries it: the one list of the kinds
+ * of stored files (src/lib/server/backup.ts reads it). A new kind of stored file is added here.
+ * Derived files (renders, previews, thumbnails) are carried too: a restored archive shows its
+ * prints at once, without waiting for every image to be made again.
+ */
+export const STORED_FOLDERS = {
+  /** Uploaded scans, write-once, under their SHA-256. */
+  originals: 'carried',
+  /** Full-size corrected JPEGs. */
+  renders: 'carried',
+  /** Review-size copies of the original and of each correction. */
+  previews: 'carried',
+  /** Small copies shown in lists and grids. */
+  thumbnails: 'carried',
+  /** Finished export zips. */
+  exports: 'carried',
+  /** Notes on originals no database row names (src/lib/server/reconcile.ts). */
+  recovered: 'carried',
+  /** Uploads being received and half-written files: swept away after a crash, never worth keeping. */
+  incoming: 'left',
+  tmp: 'left',
+  /** The development mail fake's caught mail and the processes' logs. */
+  outbox: 'left',
+  logs: 'left',
+  /** The development database's own cluster folder (`npm start`): the backup holds a pg_dump instead. */
+  postgres: 'left',
+} as const satisfies Record<string, 'carried' | 'left'>;
+
 const KEY_PATTERN = /^[A-Za-z0-9][A-Za-z0-9._-]*(\/[A-Za-z0-9][A-Za-z0-9._-]*)*$/;
 const WRITE_ONCE_PREFIXES = ['originals/'];
 

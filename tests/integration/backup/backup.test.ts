@@ -8,6 +8,7 @@ import { promisify } from 'node:util';
 import pg from 'pg';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { Batch, closeDb, Item, Original } from '../../../db/index.ts';
+import { derivedKeys } from '../../../src/lib/server/processing.ts';
 import { storage } from '../../../src/lib/server/storage.ts';
 import { makeArchive, type TestArchive } from '../../support/fixtures.ts';
 
@@ -29,6 +30,9 @@ function script(name: string, args: string[], env: Record<string, string> = {}) 
 let a: TestArchive;
 let originalKey: string;
 let bytes: Buffer;
+/** An analysed and rendered print's derived files, each kind of them, with their bytes. */
+const derived = new Map<string, Buffer>();
+let itemId: string;
 beforeAll(async () => {
   a = await makeArchive('backup');
   bytes = randomBytes(50_000);
@@ -37,6 +41,24 @@ beforeAll(async () => {
   const batch = await Batch.create({ archiveId: a.id, name: 'Biscuit tin', createdBy: a.owner.id });
   const original = await Original.create({ archiveId: a.id, sha256: stored.sha256, storageKey: stored.key, bytes: stored.bytes, mime: 'image/jpeg', width: 10, height: 10, createdBy: a.owner.id });
   await Item.create({ archiveId: a.id, batchId: batch.id, originalId: original.id, seq: 1, originalName: 'scan-0001.jpg' });
+  // A second print as the worker leaves it: thumbnails, previews and a render, named by its row.
+  const other = await storage().putContentAddressed('originals', Readable.from([randomBytes(40_000)]), { ext: '.jpg' });
+  const otherOriginal = await Original.create({ archiveId: a.id, sha256: other.sha256, storageKey: other.key, bytes: other.bytes, mime: 'image/jpeg', width: 10, height: 10, createdBy: a.owner.id });
+  const item = await Item.create({ archiveId: a.id, batchId: batch.id, originalId: otherOriginal.id, seq: 2, originalName: 'scan-0002.jpg' });
+  itemId = item.id;
+  const keys = {
+    thumb: derivedKeys.originalThumbnail(item.id),
+    preview: derivedKeys.originalPreview(item.id),
+    render: derivedKeys.render(item.id, 1),
+    renderThumb: derivedKeys.renderThumbnail(item.id, 1),
+    renderPreview: derivedKeys.renderPreview(item.id, 1),
+  };
+  for (const key of Object.values(keys)) {
+    const b = randomBytes(3000);
+    await storage().put(key, b);
+    derived.set(key, b);
+  }
+  await item.update({ state: 'ready', currentVersion: 1, thumbKey: keys.thumb, previewKey: keys.preview, renderKey: keys.render, renderVersion: 1, previewVersion: 1 });
   await admin.connect();
   await admin.query(`CREATE DATABASE "${dbName}"`);
 });
@@ -80,6 +102,8 @@ describe('backup and restore', () => {
       await restored.end();
     }
     expect(fs.readFileSync(path.join(restoreStorage, originalKey)).equals(bytes)).toBe(true);
+    // Every kind of derived file came back too (thumbnails were once left out), byte for byte.
+    for (const [key, b] of derived) expect(fs.readFileSync(path.join(restoreStorage, key)).equals(b), key).toBe(true);
   });
 
   it('refuses to restore over an install that has data, and says why', async () => {
@@ -101,6 +125,29 @@ describe('backup and restore', () => {
     expect(r.code).not.toBe(0);
     expect(r.stderr).toMatch(/damaged/);
     expect(fs.existsSync(path.join(fresh, originalKey))).toBe(false);
+  });
+
+  it('does not report success when a file the database names is not in the backup', async () => {
+    const dir = path.join(tmp, 'backup-3');
+    expect((await script('backup', [dir])).code).toBe(0);
+    // A backup that is whole by its own list but lacks a file its database names (as one made
+    // before thumbnails were carried): the thumbnail goes from the copy and from the list.
+    const gone = derivedKeys.renderThumbnail(itemId, 1);
+    fs.rmSync(path.join(dir, 'files', gone));
+    const list = path.join(dir, 'files-sha256.txt');
+    fs.writeFileSync(list, fs.readFileSync(list, 'utf8').split('\n').filter((l) => !l.endsWith(`  ${gone}`)).join('\n'));
+    const second = `${dbName}_partial`;
+    await admin.query(`CREATE DATABASE "${second}"`);
+    try {
+      const fresh = path.join(tmp, 'partial-storage');
+      const r = await script('restore', [dir], { DATABASE_URL: restoreUrl.toString().replace(dbName, second), STORAGE_DIR: fresh });
+      expect(r.code, r.stdout).not.toBe(0);
+      expect(r.stderr).toMatch(/incomplete/);
+      expect(r.stderr).toContain(gone);
+      expect(r.stdout).not.toMatch(/restored the backup/);
+    } finally {
+      await admin.query(`DROP DATABASE IF EXISTS "${second}" WITH (FORCE)`);
+    }
   });
 
   it('refuses to write into a folder that is not empty', async () => {
