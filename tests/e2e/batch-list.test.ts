@@ -28,7 +28,19 @@ describe('the batch list', () => {
     await signInPage(page, a.owner.email, TEST_PASSWORD);
     await page.goto(`${BASE}/batches`, { waitUntil: 'load', timeout: 15_000 });
     await expect(page.locator('[data-batch]').count()).resolves.toBe(9);
-    await page.waitForTimeout(1500);
+    // Every entry's progress island hydrated (they hydrate when visible), so each has had its chance
+    // to open a stream; React marks the elements it has taken over.
+    for (const entry of await page.locator('[data-batch]').all()) await entry.scrollIntoViewIfNeeded();
+    await page.waitForFunction(
+      () => {
+        const bars = [...document.querySelectorAll('[data-batch-progress]')];
+        return bars.length === 9 && bars.every((el) => Object.keys(el).some((k) => k.startsWith('__reactFiber$')));
+      },
+      null,
+      { timeout: 30_000 },
+    );
+    // Then no request stays open: an event stream would keep the network busy and this wait would fail.
+    await page.waitForLoadState('networkidle', { timeout: 30_000 });
     // A browser keeps at most six connections to one host: one event stream per batch would starve the page.
     expect(streams).toEqual([]);
     await page.getByRole('link', { name: 'Team' }).click();

@@ -123,8 +123,9 @@ describe('reviewing a batch in the browser', () => {
   it('switches to side by side with V and back', async () => {
     await page.keyboard.press('v');
     await page.waitForSelector('[data-compare-view][data-layout="side"]');
-    // the canvas is redrawn on the next animation frame after the layout changes: no split line within 2 s
-    await expect.poll(() => drawnSplitX(page), { timeout: 2000, interval: 50 }).toEqual([]);
+    // the canvas is redrawn on an animation frame after the layout changes: wait for the redraw
+    // that has no split line (the split layout before it had one)
+    await expect.poll(() => drawnSplitX(page), { timeout: 30_000, interval: 50 }).toEqual([]);
     await snap(page, 'review-04b-side-by-side');
     await page.keyboard.press('v');
     await page.waitForSelector('[data-compare-view][data-layout="split"]');

@@ -8,6 +8,8 @@ import type { Client, Reply } from '../../support/http.ts';
 import type { IsolatedStack } from '../../support/isolated-stack.ts';
 import { sha256, upload } from '../../support/scans.ts';
 
+export { until } from '../../support/until.ts';
+
 export interface UploadRecord {
   name: string;
   sha256: string;
@@ -69,24 +71,4 @@ export function temporaryFiles(stack: IsolatedStack): string[] {
 export async function originalsOnDisk(stack: IsolatedStack, archiveId: string): Promise<{ id: string; sha256: string; onDisk: string; storageKey: string }[]> {
   const rows = await stack.query<{ id: string; sha256: string; storage_key: string }>('SELECT id, sha256, storage_key FROM originals WHERE archive_id = :archiveId', { archiveId });
   return rows.map((r) => ({ id: r.id, sha256: r.sha256, storageKey: r.storage_key, onDisk: sha256(fs.readFileSync(path.join(stack.storageDir, r.storage_key))) }));
-}
-
-/**
- * Polls `check` every 200 ms until it returns a value (or the time runs out). `seen`, when given,
- * says what was last observed, for the message of a timeout.
- */
-export async function until<T>(what: string, check: () => Promise<T | undefined | null | false>, timeoutMs = 60_000, seen?: () => string): Promise<T> {
-  const deadline = Date.now() + timeoutMs;
-  let lastErr: unknown;
-  while (Date.now() < deadline) {
-    try {
-      const v = await check();
-      if (v) return v;
-    } catch (err) {
-      lastErr = err;
-    }
-    await sleep(200);
-  }
-  const last = seen ? `; last seen: ${seen()}` : '';
-  throw new Error(`${what} did not happen within ${timeoutMs / 1000} s${lastErr ? ` (last error: ${(lastErr as Error).message})` : ''}${last}`);
 }

@@ -1,69 +1,74 @@
+import fs from 'node:fs';
+import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import sharp from 'sharp';
-import { Correction, Item, Original, closeDb } from '../../../db/index.ts';
-import { storage } from '../../../src/lib/server/storage.ts';
-import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
-import { recordedWorkers, spawnWorker, stopWorker } from '../../support/processes.ts';
+import type { TestArchive } from '../../support/fixtures.ts';
+import { startIsolatedStack, type IsolatedStack } from '../../support/isolated-stack.ts';
 import { createBatch, generatedScans, sha256, uploadAll, waitFullSize, waitSettled } from '../../support/scans.ts';
+import { until } from '../../support/until.ts';
 
+// A stack of its own: the workers killed here are this file's, never the shared worker that the
+// other test files running at the same time depend on.
+let stack: IsolatedStack;
 let a: TestArchive;
 beforeAll(async () => {
-  a = await makeArchive('crash');
+  stack = await startIsolatedStack({ label: 'crash', workers: 1 });
+  a = await stack.makeArchive('crash');
 });
-afterAll(() => closeDb());
+afterAll(() => stack?.stop());
 
 describe('a worker killed in the middle of a batch', () => {
   it('leaves every item ready exactly once, then rendered, with its files intact and its SHA-256 matching', async () => {
-    const editor = asToken(a.editor);
+    const editor = stack.client(a.editor.token);
     const batchId = await createBatch(editor, 'Killed mid-batch');
     const files = await generatedScans(24, 5000);
     const replies = await uploadAll(editor, batchId, files, 4);
     expect(replies.every((r) => r.status === 201)).toBe(true);
+    const counts = async () => (await editor.get(`/api/batches/${batchId}`)).body.counts;
 
     // Kill -9 while some items are done, some are being analysed (their jobs held by the worker) and others wait.
-    const deadline = Date.now() + 60_000;
-    let counts: any;
-    do {
-      counts = (await editor.get(`/api/batches/${batchId}`)).body.counts;
-      if (counts.ready >= 2 && counts.analysing > 0) break;
-      await new Promise((r) => setTimeout(r, 100));
-    } while (Date.now() < deadline);
-    expect(counts.analysing).toBeGreaterThan(0);
-    for (const pid of recordedWorkers()) await stopWorker(pid, 'SIGKILL');
-    const atKill = counts;
-    spawnWorker('worker-after-kill');
+    let seen: any;
+    const atKill = await until('two prints ready and others in analysis', async () => ((seen = await counts()).ready >= 2 && seen.analysing > 0 ? seen : null), 60_000, () => JSON.stringify(seen));
+    const [killed] = stack.workerPids();
+    await stack.stopWorkers('SIGKILL');
+    stack.startWorker();
+    expect(stack.workerPids()).not.toContain(killed);
 
     const status = await waitSettled(editor, batchId, 240_000);
     expect(status.counts, `counts at the kill: ${JSON.stringify(atKill)}`).toMatchObject({ ready: 24, failed: 0, total: 24 });
 
     // Kill it again while the full-size renders are being made: each print still gets its render once.
-    const renderDeadline = Date.now() + 120_000;
-    do {
-      counts = (await editor.get(`/api/batches/${batchId}`)).body.counts;
-      if (counts.fullSize >= 1) break;
-      await new Promise((r) => setTimeout(r, 100));
-    } while (Date.now() < renderDeadline);
-    expect(counts.fullSize).toBeLessThan(24);
-    for (const pid of recordedWorkers()) await stopWorker(pid, 'SIGKILL');
-    spawnWorker('worker-after-second-kill');
+    const atSecondKill = await until('a first full-size render', async () => ((seen = await counts()).fullSize >= 1 ? seen : null), 120_000, () => JSON.stringify(seen));
+    expect(atSecondKill.fullSize).toBeLessThan(24);
+    await stack.stopWorkers('SIGKILL');
+    stack.startWorker();
     await waitFullSize(editor, batchId, 24, 240_000);
 
-    const items = await Item.findAll({ where: { batchId }, include: [{ model: Original, as: 'original' }] });
+    const items = await stack.query<{ id: string; seq: number; original_name: string; current_version: number; render_version: number; render_key: string; sha256: string; storage_key: string }>(
+      `SELECT i.id, i.seq, i.original_name, i.current_version, i.render_version, i.render_key, o.sha256, o.storage_key
+         FROM items i JOIN originals o ON o.id = i.original_id WHERE i.batch_id = :batchId`,
+      { batchId },
+    );
     expect(items).toHaveLength(24);
     expect(new Set(items.map((i) => i.seq)).size).toBe(24);
+    const proposed = await stack.query<{ item_id: string; n: string }>(
+      "SELECT c.item_id, count(*) AS n FROM corrections c JOIN items i ON i.id = c.item_id WHERE i.batch_id = :batchId AND c.origin = 'proposed' GROUP BY c.item_id",
+      { batchId },
+    );
     const uploaded = new Map(files.map((f) => [sha256(f.bytes), f.name]));
-    for (const item of items as (Item & { original: Original })[]) {
+    for (const item of items) {
       // exactly one proposed correction, however many times the job ran
-      expect(await Correction.count({ where: { itemId: item.id, origin: 'proposed' } })).toBe(1);
-      const original = await storage().readBuffer(item.original.storageKey);
-      expect(sha256(original)).toBe(item.original.sha256);
-      expect(uploaded.get(item.original.sha256)).toBe(item.originalName);
-      expect(item.renderVersion).toBe(item.currentVersion);
-      const render = await storage().readBuffer(item.renderKey!);
+      expect(proposed.find((p) => p.item_id === item.id)?.n).toBe('1');
+      const original = fs.readFileSync(path.join(stack.storageDir, item.storage_key));
+      expect(sha256(original)).toBe(item.sha256);
+      expect(uploaded.get(item.sha256)).toBe(item.original_name);
+      expect(item.render_version).toBe(item.current_version);
+      const render = fs.readFileSync(path.join(stack.storageDir, item.render_key));
       const meta = await sharp(render).metadata();
       expect([meta.format, meta.width, meta.height]).toEqual(['jpeg', 600, 400]);
       await sharp(render).raw().toBuffer(); // decodes whole: not a half-written file
     }
-    expect(await Original.count({ where: { archiveId: a.id } })).toBe(24);
+    const originals = await stack.query<{ n: string }>('SELECT count(*) AS n FROM originals WHERE archive_id = :archiveId', { archiveId: a.id });
+    expect(originals[0].n).toBe('24');
   }, 300_000);
 });

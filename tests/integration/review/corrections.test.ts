@@ -17,6 +17,7 @@ let archive: TestArchive;
 let editor: Client;
 let owner: Client;
 let viewer: Client;
+/** One print per test that changes versions, so no test depends on another having run first. */
 let items: { id: string; seq: number }[];
 
 beforeAll(async () => {
@@ -24,7 +25,7 @@ beforeAll(async () => {
   editor = asToken(archive.editor);
   owner = asToken(archive.owner);
   viewer = asToken(archive.viewer);
-  ({ items } = await readyBatch(editor, 'Sideboard envelope', await fadedScans(3, 31)));
+  ({ items } = await readyBatch(editor, 'Sideboard envelope', await fadedScans(4, 31)));
 });
 afterAll(closeDb);
 
@@ -71,7 +72,11 @@ describe('correction versions', () => {
   });
 
   it('restores any earlier version as a new version and keeps the whole history', async () => {
-    const id = items[0].id;
+    const id = items[3].id;
+    // a version of the editor's to go back from
+    const before = await detail(editor, id);
+    const changed = await editor.post(`/api/items/${id}/corrections`, { params: withStrength(before.current, 0.5), basedOnVersion: before.currentVersion });
+    expect(changed.status).toBe(202);
     const seen = await detail(owner, id);
     const first = seen.corrections[0];
     const r = await owner.post(`/api/items/${id}/corrections/${first.version}/restore`, {});
@@ -88,12 +93,19 @@ describe('correction versions', () => {
     expect((await viewer.post(`/api/items/${id}/corrections/1/restore`, {})).status).toBe(403);
   });
 
-  it('refuses a change based on an older version with a 409 naming who saved the newer one', async () => {
-    const id = items[0].id;
-    const r = await editor.post(`/api/items/${id}/corrections`, { params: (await detail(editor, id)).current, basedOnVersion: 1 });
+  it('refuses a change based on an older version with a 409 naming who saved the newer one, and keeps the newer one', async () => {
+    const id = items[1].id;
+    // the editor loads the print, then the owner saves a change before the editor does
+    const seenByEditor = await detail(editor, id);
+    const newer = await owner.post(`/api/items/${id}/corrections`, { params: withStrength(seenByEditor.current, 0.6), basedOnVersion: seenByEditor.currentVersion });
+    expect(newer.status).toBe(202);
+    const r = await editor.post(`/api/items/${id}/corrections`, { params: withStrength(seenByEditor.current, 0.9), basedOnVersion: seenByEditor.currentVersion });
     expect(r.status).toBe(409);
     expect(r.body.error.code).toBe('stale_correction');
-    expect(r.body.error.message).toContain(`owner ${archive.slug} saved version`);
+    expect(r.body.error.message).toContain(`owner ${archive.slug} saved version ${newer.body.version}`);
+    const now = await detail(viewer, id);
+    expect(now.currentVersion).toBe(newer.body.version);
+    expect(now.corrections).toHaveLength(seenByEditor.corrections.length + 1);
   });
 
   it('refuses a correction the engine would not accept, and keeps the versions as they were', async () => {

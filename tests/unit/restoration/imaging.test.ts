@@ -109,12 +109,12 @@ describe('refusals', () => {
   });
 
   it('refuses a header claiming 50 000 x 50 000 pixels before decoding anything', async () => {
-    const started = Date.now();
+    // its pixel data is an empty stream: any decode would end as `unreadable`, so this code shows
+    // that the header alone was read
     const err = await rejection(analyseAndRender(bombPng()));
     expect(err.code).toBe('too_many_pixels');
     expect(err.status).toBe(413);
     expect(err.message).toMatch(/50000 x 50000/);
-    expect(Date.now() - started).toBeLessThan(2000);
   });
 
   it('refuses a file over the byte limit', async () => {
