@@ -8,7 +8,7 @@ source "$root/src/scripts/common.sh"
 cd "$root"
 
 ensure_node_modules "$root"
-ensure_debian_package chromium /usr/bin/chromium
+ensure_debian_package --no-install-recommends chromium /usr/bin/chromium
 ensure_debian_package libjemalloc2 /usr/lib/x86_64-linux-gnu/libjemalloc.so.2
 
 throwaway_stack "$root" test

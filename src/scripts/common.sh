@@ -12,14 +12,19 @@ ensure_node_modules() {
 }
 
 # A Debian package the app or its tests use besides PostgreSQL (jemalloc for the image engine,
-# Chromium for the browser tests), installed when the probed file is missing.
+# Chromium and the outside checkers for the tests), installed when the probed file is missing.
+#   ensure_debian_package [--no-install-recommends] <package> <file it provides>
+# --no-install-recommends: only what the package depends on (Chromium's recommendations pull in
+# some 130 packages, printing and zero-configuration networking daemons among them).
 ensure_debian_package() {
+  local apt_options=()
+  if [ "$1" = "--no-install-recommends" ]; then apt_options+=("$1"); shift; fi
   local pkg=$1 probe=$2
   if [ ! -e "$probe" ]; then
     if [ "$(id -u)" -eq 0 ]; then
       echo "drawerlight: installing $pkg from Debian's packages ..." >&2
       if [ -z "${DRAWERLIGHT_APT_UPDATED:-}" ]; then DEBIAN_FRONTEND=noninteractive apt-get update -qq >&2; export DRAWERLIGHT_APT_UPDATED=1; fi
-      DEBIAN_FRONTEND=noninteractive apt-get install -y -qq "$pkg" >&2 || echo "drawerlight: could not install $pkg" >&2
+      DEBIAN_FRONTEND=noninteractive apt-get install -y -qq "${apt_options[@]}" "$pkg" >&2 || echo "drawerlight: could not install $pkg" >&2
     else
       echo "drawerlight: $pkg is missing and this is not root; install it with apt-get." >&2
     fi
