@@ -10,6 +10,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { Batch, closeDb, Item, Original } from '../../../db/index.ts';
 import { derivedKeys } from '../../../src/lib/server/processing.ts';
 import { storage } from '../../../src/lib/server/storage.ts';
+import { dropDatabase } from '../../support/databases.ts';
 import { makeArchive, type TestArchive } from '../../support/fixtures.ts';
 
 const run = promisify(execFile);
@@ -64,7 +65,7 @@ beforeAll(async () => {
 });
 afterAll(async () => {
   await closeDb();
-  await admin.query(`DROP DATABASE IF EXISTS "${dbName}" WITH (FORCE)`);
+  await dropDatabase(admin, dbName);
   await admin.end();
   fs.rmSync(tmp, { recursive: true, force: true });
 });
@@ -146,7 +147,7 @@ describe('backup and restore', () => {
       expect(r.stderr).toContain(gone);
       expect(r.stdout).not.toMatch(/restored the backup/);
     } finally {
-      await admin.query(`DROP DATABASE IF EXISTS "${second}" WITH (FORCE)`);
+      await dropDatabase(admin, second);
     }
   });
 
