@@ -2,15 +2,23 @@
  * `npm run serve`: the web server of a build, started only after the settings check out, so a
  * production start without its secrets refuses to run instead of failing on the first request.
  */
+import type { IncomingMessage, Server } from 'node:http';
 import path from 'node:path';
 import { pathToFileURL } from 'node:url';
+import { pinClientAddress } from '../lib/server/client-address.ts';
 import { loadConfig } from '../lib/server/config.ts';
 
+let trustedProxies: string[];
 try {
-  loadConfig();
+  trustedProxies = loadConfig().trustedProxies;
 } catch (err) {
   console.error((err as Error).message);
   process.exit(1);
 }
+// The adapter starts its server on import unless told not to; this one starts it itself so that it
+// can set the client address (src/lib/server/client-address.ts) before Astro reads the request.
+process.env.ASTRO_NODE_AUTOSTART = 'disabled';
 const outDir = process.env.DRAWERLIGHT_OUT_DIR ?? './dist/app';
-await import(pathToFileURL(path.resolve(outDir, 'server/entry.mjs')).href);
+const entry = (await import(pathToFileURL(path.resolve(outDir, 'server/entry.mjs')).href)) as { startServer(): { server: { server: Server } } };
+const { server } = entry.startServer();
+server.server.prependListener('request', (req: IncomingMessage) => pinClientAddress(req, trustedProxies));

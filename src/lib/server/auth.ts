@@ -1,7 +1,10 @@
+import { randomUUID } from 'node:crypto';
 import { Auth, type AuthConfig } from '@auth/core';
+import { getToken } from '@auth/core/jwt';
 import Credentials from '@auth/core/providers/credentials';
 import Nodemailer from '@auth/core/providers/nodemailer';
 import SequelizeAdapter from '@auth/sequelize-adapter';
+import { QueryTypes } from 'sequelize';
 import { z } from 'zod';
 import { db, User, VerificationToken } from '../../../db/index.ts';
 import { config } from './config.ts';
@@ -9,10 +12,35 @@ import { linkMail, sendMail } from './mailer.ts';
 import { verifyPassword } from './passwords.ts';
 
 export const AUTH_BASE_PATH = '/api/auth';
+const SESSION_MAX_AGE_S = 14 * 24 * 3600;
 
 const credentialsSchema = z.object({ email: z.string().trim().toLowerCase().email(), password: z.string().min(1).max(500) });
 
 let authConfig: AuthConfig | undefined;
+
+/** Auth.js errors caused by what a request carried, not by the server. */
+const CLIENT_FAULTS = new Set(['JWTSessionError', 'SessionTokenError', 'MissingCSRF', 'InvalidCheck', 'UnknownAction', 'InvalidCallbackUrl', 'Verification', 'WebAuthnVerificationError']);
+
+const UUID = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
+
+async function sessionRevoked(sessionId: string): Promise<boolean> {
+  if (!UUID.test(sessionId)) return true;
+  const rows = await db().query('SELECT 1 FROM revoked_sessions WHERE session_id = :sessionId', { replacements: { sessionId }, type: QueryTypes.SELECT });
+  return rows.length > 0;
+}
+
+/**
+ * Ends the session of the request's cookie on the server: its id is listed as revoked until the
+ * session would have expired, so a copy of the cookie stops working too. Nothing happens without one.
+ */
+export async function revokeSession(request: Request): Promise<void> {
+  const c = config();
+  const token = await getToken({ req: request, secret: c.authSecret, secureCookie: c.appUrl.startsWith('https://') }).catch(() => null);
+  if (!token || typeof token.sid !== 'string' || !UUID.test(token.sid)) return;
+  const expiresAt = new Date(typeof token.exp === 'number' ? token.exp * 1000 : Date.now() + SESSION_MAX_AGE_S * 1000);
+  await db().query('DELETE FROM revoked_sessions WHERE expires_at < now()');
+  await db().query('INSERT INTO revoked_sessions (session_id, expires_at) VALUES (:sid, :expiresAt) ON CONFLICT (session_id) DO NOTHING', { replacements: { sid: token.sid, expiresAt } });
+}
 
 /** The Auth.js configuration: e-mail + password and one-time e-mail links, JWT sessions. */
 export function getAuthConfig(): AuthConfig {
@@ -23,7 +51,7 @@ export function getAuthConfig(): AuthConfig {
     basePath: AUTH_BASE_PATH,
     trustHost: true,
     secret: c.authSecret,
-    session: { strategy: 'jwt', maxAge: 14 * 24 * 3600, updateAge: 24 * 3600 },
+    session: { strategy: 'jwt', maxAge: SESSION_MAX_AGE_S, updateAge: 24 * 3600 },
     useSecureCookies: c.appUrl.startsWith('https://'),
     adapter: SequelizeAdapter(sequelize, { models: { User, VerificationToken } as never, synchronize: false }),
     pages: { signIn: '/signin', error: '/signin', verifyRequest: '/signin?link=sent' },
@@ -67,7 +95,9 @@ export function getAuthConfig(): AuthConfig {
         return true;
       },
       async jwt({ token, user }) {
-        if (user?.id) token.sub = user.id;
+        // Each sign-in is a session of its own, with an id that signing out can revoke (revokeSession).
+        if (user?.id) return { ...token, sub: user.id, sid: randomUUID() };
+        if (typeof token.sid !== 'string' || (await sessionRevoked(token.sid))) return null;
         return token;
       },
       async session({ session, token }) {
@@ -77,8 +107,15 @@ export function getAuthConfig(): AuthConfig {
     },
     logger: {
       error(err) {
+        const type = (err as { type?: string }).type ?? err.name;
         // Wrong passwords are an expected outcome, not a server fault.
-        if ((err as { type?: string }).type === 'CredentialsSignin') return;
+        if (type === 'CredentialsSignin') return;
+        // What a client sent wrong (a garbage cookie, a stale form) is one line, not a stack per request.
+        if (CLIENT_FAULTS.has(type)) {
+          const cause = (err as { cause?: { err?: Error } }).cause?.err?.message;
+          console.error(`[auth] ${type}: ${err.message.split('\n')[0]}${cause ? ` (${cause})` : ''}`);
+          return;
+        }
         console.error('[auth]', err);
       },
       warn() {},

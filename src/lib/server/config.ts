@@ -1,3 +1,5 @@
+import { randomBytes } from 'node:crypto';
+import fs from 'node:fs';
 import path from 'node:path';
 import { z } from 'zod';
 
@@ -24,7 +26,35 @@ const envSchema = z.object({
   STALE_UPLOAD_MINUTES: z.coerce.number().positive().default(30),
   EXPORT_STALL_SECONDS: z.coerce.number().positive().default(600),
   SIGNIN_ATTEMPTS_PER_15_MIN: z.coerce.number().int().positive().default(10),
+  TRUSTED_PROXIES: z.string().default(''),
 });
+
+/**
+ * Development and test need a session secret without anyone setting one, but never one written in
+ * the code (anyone could forge a session with it): a random one is made on first start and kept in
+ * the storage folder, so every process of the install reads the same one.
+ */
+function localAuthSecret(storageDir: string): string {
+  const file = path.join(storageDir, '.auth-secret');
+  try {
+    return fs.readFileSync(file, 'utf8').trim();
+  } catch (err) {
+    if ((err as NodeJS.ErrnoException).code !== 'ENOENT') throw err;
+  }
+  fs.mkdirSync(storageDir, { recursive: true });
+  // Written aside and linked into place, so a process starting at the same moment reads either
+  // nothing (and links its own, which fails) or the whole secret, never half of it.
+  const staged = `${file}.${process.pid}.${randomBytes(4).toString('hex')}`;
+  fs.writeFileSync(staged, randomBytes(32).toString('base64url'), { mode: 0o600 });
+  try {
+    fs.linkSync(staged, file);
+  } catch (err) {
+    if ((err as NodeJS.ErrnoException).code !== 'EEXIST') throw err;
+  } finally {
+    fs.rmSync(staged, { force: true });
+  }
+  return fs.readFileSync(file, 'utf8').trim();
+}
 
 export type AppConfig = ReturnType<typeof loadConfig>;
 
@@ -50,7 +80,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env) {
     hasOutbox: !production,
     appUrl: e.APP_URL.replace(/\/$/, ''),
     databaseUrl: e.DATABASE_URL,
-    authSecret: e.AUTH_SECRET ?? 'drawerlight-local-development-secret-not-for-production',
+    authSecret: e.AUTH_SECRET ?? localAuthSecret(e.STORAGE_DIR),
     storageDir: e.STORAGE_DIR,
     smtp: {
       host: e.SMTP_HOST,
@@ -69,6 +99,11 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env) {
     /** A running export whose progress has not moved for this long lost its worker and is sent again. */
     exportStallMs: Math.round(e.EXPORT_STALL_SECONDS * 1000),
     signinAttemptsPer15Min: e.SIGNIN_ATTEMPTS_PER_15_MIN,
+    /**
+     * Addresses of reverse proxies whose X-Forwarded-For is believed (none by default: the client is
+     * whoever opened the connection, so nobody picks their own address by sending the header).
+     */
+    trustedProxies: e.TRUSTED_PROXIES.split(',').map((a) => a.trim()).filter(Boolean),
   };
 }
 

@@ -1,5 +1,6 @@
 import type { APIContext, APIRoute } from 'astro';
 import { ZodError, type ZodType, type z } from 'zod';
+import { readJsonBody } from './body-limits.ts';
 import { AppError, InvalidInput } from './errors.ts';
 
 /** A JSON response with the given status (and optional extra headers). */
@@ -31,13 +32,9 @@ export function parseInput<S extends ZodType>(schema: S, value: unknown): z.infe
   return result.data;
 }
 
-/** Reads a JSON body, refusing anything that is not JSON with a clear 400. */
-export async function readJson(request: Request): Promise<unknown> {
-  try {
-    return await request.json();
-  } catch {
-    throw new InvalidInput('The request body must be JSON.');
-  }
+/** Reads a JSON body of at most 1 MiB (413 past it, never buffered), refusing anything that is not JSON with a clear 400. */
+export function readJson(request: Request): Promise<unknown> {
+  return readJsonBody(request);
 }
 
 /**

@@ -20,7 +20,21 @@ export const SIGNIN_ERRORS: Record<string, string> = {
   Configuration: 'Sign-in is not working on the server right now. Try again later.',
 };
 
-/** Only same-site paths may be a destination after sign-in. */
+const CONTROL_CHARACTERS = /[\u0000-\u001f\u007f]/;
+
+/** True when a destination holds control characters (CR/LF would split the Location header): a 400. */
+export function malformedNext(next: string | null): boolean {
+  return next !== null && CONTROL_CHARACTERS.test(next);
+}
+
+/**
+ * Only a path of this site may be a destination after sign-in; anything else goes to `/`.
+ * Browsers read `\` as `/`, so `/\evil.example` is another site (`//evil.example`): refused,
+ * as is anything that resolves to another origin.
+ */
 export function safeNext(next: string | null): string {
-  return next && next.startsWith('/') && !next.startsWith('//') ? next : '/';
+  if (!next || !next.startsWith('/') || next.startsWith('//') || next.includes('\\') || CONTROL_CHARACTERS.test(next)) return '/';
+  const base = new URL('http://drawerlight.invalid');
+  const resolved = new URL(next, base);
+  return resolved.origin === base.origin ? `${resolved.pathname}${resolved.search}${resolved.hash}` : '/';
 }

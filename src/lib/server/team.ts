@@ -99,10 +99,20 @@ export async function findInvitation(token: string) {
  * account is added to the archive (they prove who they are by being signed in as that address).
  */
 export async function acceptInvitation(token: string, input: { name?: string; password?: string }, signedInUserId: string | null) {
-  const found = await findInvitation(token);
+  if (!token || token.length > 100) throw new NotFound('That invitation (it may have expired or been used)');
+  const found = await Invitation.findOne({
+    where: { tokenHash: hashToken(token), revokedAt: null, expiresAt: { [Op.gt]: new Date() } },
+    include: [{ model: Archive, as: 'archive', attributes: ['id', 'name', 'slug'] }],
+  });
   if (!found) throw new NotFound('That invitation (it may have expired or been used)');
-  const { invitation } = found;
+  const archiveSlug = (found as Invitation & { archive: Archive }).archive.slug;
+  const used = () => new Conflict('This invitation has been accepted already: sign in instead.', 'invitation_used');
+  if (found.acceptedAt) throw used();
   return db().transaction(async (transaction) => {
+    // Several accepts of one link at once (a double click, two tabs) queue on the row: the first
+    // one in accepts it, the others find it accepted.
+    const invitation = await Invitation.findByPk(found.id, { transaction, lock: transaction.LOCK.UPDATE });
+    if (!invitation || invitation.acceptedAt) throw used();
     let user = await User.findOne({ where: { email: invitation.email }, transaction });
     if (user) {
       if (user.id !== signedInUserId) {
@@ -120,7 +130,7 @@ export async function acceptInvitation(token: string, input: { name?: string; pa
     await Membership.findOrCreate({ where: { archiveId: invitation.archiveId, userId: user.id }, defaults: { archiveId: invitation.archiveId, userId: user.id, role: invitation.role }, transaction });
     await invitation.update({ acceptedAt: new Date() }, { transaction });
     await recordAudit({ archiveId: invitation.archiveId, actorId: user.id, action: 'invitation.accept', subjectType: 'invitation', subjectId: invitation.id, details: { role: invitation.role } }, transaction);
-    return { user, archiveSlug: found.archive.slug };
+    return { user, archiveSlug };
   });
 }
 

@@ -67,7 +67,7 @@ describe('team roles', () => {
     expect(me.body.archives).toEqual([expect.objectContaining({ slug: a.slug, role: 'viewer' })]);
     expect((await guest.get('/api/team')).status).toBe(403);
     // An invitation works once.
-    expect((await new Client().post(`/api/invitations/${token}`, { name: 'Someone', password: 'another long password' })).status).toBe(404);
+    expect((await new Client().post(`/api/invitations/${token}`, { name: 'Someone', password: 'another long password' })).status).toBe(409);
   });
 
   it('lets a member switch between archives', async () => {
