@@ -9,6 +9,9 @@ cd "$root"
 
 ensure_node_modules "$root"
 ensure_debian_package --no-install-recommends chromium /usr/bin/chromium
+# outside checkers of the exports (tests/support/outside-checks.ts)
+ensure_debian_package --no-install-recommends libimage-exiftool-perl /usr/bin/exiftool
+ensure_debian_package --no-install-recommends unzip /usr/bin/unzip
 ensure_debian_package libjemalloc2 /usr/lib/x86_64-linux-gnu/libjemalloc.so.2
 
 throwaway_stack "$root" test

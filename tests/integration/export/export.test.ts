@@ -10,6 +10,7 @@ import sharp from 'sharp';
 import { Item, closeDb } from '../../../db/index.ts';
 import { listOutbox } from '../../../src/lib/server/outbox.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
+import { exiftool, sha256sumCheck, unpackWithUnzip } from '../../support/outside-checks.ts';
 import { batchWithPrints, decide, downloadBytes, sha256, waitExport } from './helpers.ts';
 
 const run = promisify(execFile);
@@ -101,6 +102,25 @@ describe('the exported bag follows RFC 8493', () => {
     expect(info).toContain(`Source-Organization: ${a.name}`);
   });
 
+  it('unpacks with Info-ZIP unzip, and coreutils sha256sum --check passes both manifests', async () => {
+    const bag = await unpackWithUnzip(zipBytes, path.join(tmp, 'with-unzip'));
+    expect(path.basename(bag)).toBe(base);
+    const payload = await sha256sumCheck(bag, 'manifest-sha256.txt');
+    expect(payload.code, payload.out).toBe(0);
+    // one "<path>: OK" line per payload file: 3 corrected JPEGs, 3 originals, the CSV
+    expect(payload.stdout.trim().split('\n').filter((l) => l.endsWith(': OK'))).toHaveLength(7);
+    const tags = await sha256sumCheck(bag, 'tagmanifest-sha256.txt');
+    expect(tags.code, tags.out).toBe(0);
+    // and sha256sum notices a changed byte, naming the file
+    const photo = path.join(bag, 'data/photos/undated/undated 0003.jpg');
+    const buf = await fs.readFile(photo);
+    buf[buf.length >> 1] ^= 0x01;
+    await fs.writeFile(photo, buf);
+    const damaged = await sha256sumCheck(bag, 'manifest-sha256.txt');
+    expect(damaged.code).not.toBe(0);
+    expect(damaged.stdout).toContain('data/photos/undated/undated 0003.jpg: FAILED');
+  });
+
   it('covers every tag file in tagmanifest-sha256.txt', () => {
     const lines = inBag('tagmanifest-sha256.txt')!.toString('utf8').trim().split('\n');
     const listed = new Map(lines.map((l) => { const i = l.indexOf(' '); return [l.slice(i + 1), l.slice(0, i)]; }));
@@ -139,6 +159,34 @@ describe('metadata embedded in the exported JPEGs', () => {
     expect(tags.exif?.DateTimeOriginal).toBeUndefined();
     expect(tags.xmp.DateCreated).toBeUndefined();
     expect(tags.exif.ImageDescription.description).toBe('The new car');
+  });
+});
+
+describe('metadata embedded in the exported JPEGs, read back with ExifTool', () => {
+  async function tagsOf(folder: string): Promise<Record<string, any>> {
+    const key = [...files.keys()].find((k) => k.includes(`/photos/${folder}/`))!;
+    const file = path.join(tmp, `exiftool-${folder}.jpg`);
+    await fs.writeFile(file, files.get(key)!);
+    return exiftool(file);
+  }
+
+  it('reads caption, people, place and an exact date, non-ASCII intact', async () => {
+    const tags = await tagsOf('1981');
+    expect(tags['XMP-dc:Description']).toBe('Großmutter Zoë am See (Łódź) — „Picknick“');
+    expect(tags['XMP-dc:Subject']).toEqual(['Zoë Hartigan', 'Ōta Hiro', 'Lough Arrow']);
+    // ExifTool gives every date it reads in EXIF's colon form, XMP's "1981-07-15" included
+    expect(tags['XMP-photoshop:DateCreated']).toBe('1981:07:15');
+    expect(tags['ExifIFD:DateTimeOriginal']).toBe('1981:07:15 00:00:00');
+    expect(tags['ExifTool:Warning']).toBeUndefined();
+  });
+
+  it('finds no exact date for "the 1980s", and the caption in EXIF too', async () => {
+    const tags = await tagsOf('1980s');
+    expect(tags['XMP-dc:Description']).toBe('The new car');
+    expect(tags['IFD0:ImageDescription']).toBe('The new car');
+    expect(tags['ExifIFD:DateTimeOriginal']).toBeUndefined();
+    expect(tags['XMP-photoshop:DateCreated']).toBeUndefined();
+    expect(tags['ExifTool:Warning']).toBeUndefined();
   });
 });
 
@@ -221,7 +269,11 @@ describe('an export of a print whose full-size render is not made yet', () => {
     expect(r.status).toBe(202);
     const done = await waitExport(editor, r.headers.get('location')!);
     expect(done).toMatchObject({ state: 'ready', verified: true, items: 1 });
-    const bag = await unzip((await downloadBytes(editor, done.downloadUrl)).bytes);
+    const zip = (await downloadBytes(editor, done.downloadUrl)).bytes;
+    const bag = await unzip(zip);
+    const unpacked = await unpackWithUnzip(zip, path.join(tmp, 'render-missing'));
+    const checked = await sha256sumCheck(unpacked, 'manifest-sha256.txt');
+    expect(checked.code, checked.out).toBe(0);
     const photos = [...bag.entries()].filter(([k]) => k.includes('/data/photos/'));
     expect(photos).toHaveLength(1);
     const meta = await sharp(photos[0][1]).metadata();
