@@ -4,15 +4,15 @@
  */
 import { z } from 'zod';
 import { describePrintDate } from './edtf.ts';
+import { plainText } from './plain-text.ts';
 
 /** Longest texts we keep; long enough for the back of a print written edge to edge. */
 export const LIMITS = { caption: 2000, place: 300, backText: 4000, envelope: 300, person: 200, people: 40, note: 1000 } as const;
 
-/** Empty text means "clear the field"; absence means "leave it as it is". */
-const clearable = (max: number, what: string) =>
-  z
-    .string()
-    .max(max, `${what} can be at most ${max} characters.`)
+/** Empty text means "clear the field"; absence means "leave it as it is". NFC, no control characters. */
+const clearable = (max: number, what: string, multiline = false) =>
+  plainText(what, multiline)
+    .pipe(z.string().max(max, `${what} can be at most ${max} characters.`))
     .nullable()
     .optional()
     .transform((v) => (v === undefined ? undefined : v === null ? null : v.trim() === '' ? null : v.trim()));
@@ -35,9 +35,8 @@ export const dateField = z
   });
 
 /** One person's name as a tag: trimmed, single spaces. */
-export const personName = z
-  .string()
-  .transform((s) => s.normalize('NFC').replace(/\s+/g, ' ').trim())
+export const personName = plainText('A name')
+  .transform((s) => s.replace(/\s+/g, ' ').trim())
   .pipe(z.string().min(1, 'A name cannot be empty.').max(LIMITS.person, `A name can be at most ${LIMITS.person} characters.`));
 
 /** The people shown, in caption order; the same name twice (in any letter case) counts once. */
@@ -52,11 +51,11 @@ export const peopleField = z
 /** The caption form of one print. Every field is optional: only what is sent changes. */
 export const metadataSchema = z
   .object({
-    caption: clearable(LIMITS.caption, 'The caption'),
+    caption: clearable(LIMITS.caption, 'The caption', true),
     dateEdtf: dateField,
     place: clearable(LIMITS.place, 'The place'),
     people: peopleField.optional(),
-    backText: clearable(LIMITS.backText, 'The text on the back'),
+    backText: clearable(LIMITS.backText, 'The text on the back', true),
     envelope: clearable(LIMITS.envelope, 'The envelope or source detail'),
   })
   .strict();
@@ -78,11 +77,11 @@ export type BulkMetadataInput = z.input<typeof bulkMetadataSchema>;
 /** A viewer's suggestion: at least one of caption, date, place or people. */
 export const suggestionSchema = z
   .object({
-    caption: clearable(LIMITS.caption, 'The caption'),
+    caption: clearable(LIMITS.caption, 'The caption', true),
     dateEdtf: dateField,
     place: clearable(LIMITS.place, 'The place'),
     people: peopleField.optional(),
-    note: clearable(LIMITS.note, 'The note'),
+    note: clearable(LIMITS.note, 'The note', true),
   })
   .strict()
   .refine((s) => Boolean(s.caption || s.dateEdtf || s.place || (s.people && s.people.length)), {

@@ -2,7 +2,9 @@
  * Batch and upload shapes shared by the web API, the batch form and the upload island.
  * Pure: no server imports, safe in the browser.
  */
+import edtf from 'edtf';
 import { z } from 'zod';
+import { plainText } from '../archive/plain-text.ts';
 
 /** Physical sources a batch can come from (db/models/Batch.ts uses this list). */
 export const SOURCE_KINDS = ['box', 'drawer', 'album', 'envelope', 'other'] as const;
@@ -44,11 +46,9 @@ export function isSettled(c: StateCounts): boolean {
   return c.total > 0 && c.queued === 0 && c.analysing === 0;
 }
 
-const optionalText = (max: number) =>
-  z
-    .string()
-    .trim()
-    .max(max, `At most ${max} characters.`)
+const optionalText = (max: number, what: string, multiline = false) =>
+  plainText(what, multiline)
+    .pipe(z.string().trim().max(max, `At most ${max} characters.`))
     .optional()
     .transform((v) => (v ? v : undefined));
 
@@ -64,15 +64,32 @@ const looseDate = z
   .optional()
   .transform((v) => (v ? v : undefined));
 
+/** The span of an EDTF date (198X: 1980-1989), or null when it is not one we can read. */
+function dateSpan(value: string): { min: number; max: number } | null {
+  try {
+    const d = edtf(value);
+    return d.min === null || d.max === null ? null : { min: d.min, max: d.max };
+  } catch {
+    return null;
+  }
+}
+
 /** A new batch: one sitting's scans from one physical source. */
-export const batchCreateSchema = z.object({
-  name: z.string().trim().min(1, 'Give the batch a name.').max(200, 'At most 200 characters.'),
-  sourceKind: z.enum(SOURCE_KINDS).default('box'),
-  sourceLabel: optionalText(200),
-  dateFrom: looseDate,
-  dateTo: looseDate,
-  notes: optionalText(4000),
-});
+export const batchCreateSchema = z
+  .object({
+    name: plainText('The name').pipe(z.string().trim().min(1, 'Give the batch a name.').max(200, 'At most 200 characters.')),
+    sourceKind: z.enum(SOURCE_KINDS).default('box'),
+    sourceLabel: optionalText(200, 'The label'),
+    dateFrom: looseDate,
+    dateTo: looseDate,
+    notes: optionalText(4000, 'The notes', true),
+  })
+  .superRefine((b, ctx) => {
+    const from = b.dateFrom ? dateSpan(b.dateFrom) : null;
+    const to = b.dateTo ? dateSpan(b.dateTo) : null;
+    // Refused only when no reading of the two dates puts the end on or after the start (1981~ to 198X is fine).
+    if (from && to && to.max < from.min) ctx.addIssue({ code: z.ZodIssueCode.custom, path: ['dateTo'], message: `The end (${b.dateTo}) is before the start (${b.dateFrom}).` });
+  });
 export type BatchCreateInput = z.input<typeof batchCreateSchema>;
 export type BatchCreate = z.output<typeof batchCreateSchema>;
 

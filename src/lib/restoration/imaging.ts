@@ -127,6 +127,11 @@ export async function probeScan(input: string | Buffer, limits: Partial<ScanLimi
   return (await probeWithHead(input, limits)).probe;
 }
 
+/** `1,440,000 pixels, 1.44 megapixels`: the exact count beside the rounded one, which alone can read the same as the limit. */
+function pixelCount(pixels: number): string {
+  return `${pixels.toLocaleString('en-US')} pixels, ${Number((pixels / 1e6).toFixed(2))} megapixels`;
+}
+
 /**
  * {@link probeScan}, also handing back the head of the file it read (up to 256 KB; the whole
  * file when it is smaller), where the caller looks for EXIF.
@@ -159,7 +164,7 @@ export async function probeWithHead(input: string | Buffer, limits: Partial<Scan
   const h = meta.height ?? 0;
   if (w < 1 || h < 1) throw new ScanRejected('unreadable', 'The image header gives no size.');
   if (w * h > lim.maxPixels) {
-    throw new ScanRejected('too_many_pixels', `The image claims ${w} x ${h} pixels (${Math.round((w * h) / 1e6)} megapixels); the limit is ${Math.round(lim.maxPixels / 1e6)} megapixels.`);
+    throw new ScanRejected('too_many_pixels', `The image claims ${w} x ${h} pixels (${pixelCount(w * h)}); the limit is ${pixelCount(lim.maxPixels)}.`);
   }
   const orientation = meta.orientation ?? 1;
   const swap = orientation >= 5 && orientation <= 8;

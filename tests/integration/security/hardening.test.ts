@@ -81,7 +81,7 @@ describe('calls with an API token', () => {
   });
 
   it('still refuses a cookie session posting from another site, in the JSON error shape', async () => {
-    const session = await asSession(a.editor);
+    const session = await asSession(b.editor);
     const r = await fetch(`${BASE}/api/batches`, {
       method: 'POST',
       headers: { cookie: session.cookieHeader(), origin: 'https://evil.example', 'content-type': 'application/x-www-form-urlencoded' },
@@ -90,7 +90,7 @@ describe('calls with an API token', () => {
     expect(r.status).toBe(403);
     expect(r.headers.get('content-type')).toContain('application/json');
     expect((await r.json()).error.code).toBe('cross_site');
-    expect(await Batch.count({ where: { archiveId: a.id, name: 'Forged' } })).toBe(0);
+    expect(await Batch.count({ where: { archiveId: b.id, name: 'Forged' } })).toBe(0);
   });
 });
 
@@ -142,8 +142,8 @@ describe('the X-Archive header', () => {
 
 describe('malformed and concurrent requests', () => {
   it('answers 400 to a state-changing request whose Referer is not a URL and that has no Origin', async () => {
-    const session = await asSession(a.editor);
-    const before = await Batch.count({ where: { archiveId: a.id } });
+    const session = await asSession(b.editor);
+    const before = await Batch.count({ where: { archiveId: b.id } });
     const r = await fetch(`${BASE}/api/batches`, {
       method: 'POST',
       headers: { cookie: session.cookieHeader(), referer: 'http://[not a url', 'content-type': 'application/json' },
@@ -151,7 +151,7 @@ describe('malformed and concurrent requests', () => {
     });
     expect(r.status).toBe(400);
     expect((await r.json()).error.code).toBe('invalid_input');
-    expect(await Batch.count({ where: { archiveId: a.id } })).toBe(before);
+    expect(await Batch.count({ where: { archiveId: b.id } })).toBe(before);
   });
 
   it('accepts one invitation once when ten accepts arrive together: one 200, nine 409, one account and one membership', async () => {
