@@ -10,8 +10,12 @@ import { queue, stopQueue } from '../src/lib/server/queue.ts';
 import { HANDLERS } from './registry.ts';
 import { registerLoop } from './loops.ts';
 import { startRenderFeeder } from './render.ts';
+import { oneAtATime } from './each-at-most.ts';
+import { reconcileOriginals } from '../src/lib/server/reconcile.ts';
 
 sharp.cache(false);
+
+const RECONCILE_MINUTES = 10;
 
 /**
  * pg-boss 10 completes and fails jobs without awaiting the call (its manager's onFetch), so one that
@@ -49,6 +53,11 @@ for (const h of HANDLERS) {
   for (let i = 0; i < (h.concurrency?.(c) ?? 1); i++) await loop(h);
 }
 startRenderFeeder();
+// Originals an upload cut short by a database outage left without a row: listed and logged, at
+// start and every few minutes (src/lib/server/reconcile.ts).
+const reconcile = oneAtATime('reconcile storage', () => reconcileOriginals().then(() => undefined));
+void reconcile();
+setInterval(reconcile, RECONCILE_MINUTES * 60_000).unref();
 console.log(`worker ${process.pid}: working on ${HANDLERS.map((h) => h.queue).join(', ') || 'no queues yet'}`);
 
 let stopping = false;

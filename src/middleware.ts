@@ -1,5 +1,6 @@
 import { randomUUID } from 'node:crypto';
 import { defineMiddleware } from 'astro:middleware';
+import type { MiddlewareHandler } from 'astro';
 import { User } from '../db/index.ts';
 import { ARCHIVE_COOKIE } from './lib/server/access.ts';
 import { userForToken } from './lib/server/api-tokens.ts';
@@ -7,7 +8,7 @@ import { sessionUserId } from './lib/server/auth.ts';
 import { refuseDeclaredOversize } from './lib/server/body-limits.ts';
 import { config } from './lib/server/config.ts';
 import { CONTENT_SECURITY_POLICY } from './lib/server/content-policy.ts';
-import { errorResponse } from './lib/server/http.ts';
+import { errorResponse, isDatabaseOutage, outageResponse } from './lib/server/http.ts';
 import { membershipsFor } from './lib/server/members.ts';
 
 /** Pages anyone may open; everything else under / needs a signed-in user. */
@@ -115,4 +116,23 @@ const handleRequest = async (...[ctx, next]: Parameters<MiddlewareHandler>): Pro
   }
 
   return withHeaders(await next(), requestId);
+};
+
+const OUTAGE_PAGE = '<!doctype html><html lang="en"><meta charset="utf-8"><title>Drawerlight: back in a moment</title><p>The database cannot be reached just now; nothing was changed. Reload the page in a few seconds.</p></html>';
+
+/**
+ * While the database cannot be reached (a restart, an outage), every route answers 503 with
+ * Retry-After and the security headers, in the API's JSON error shape or as a short page,
+ * instead of the framework's empty 500.
+ */
+export const onRequest = defineMiddleware(async (ctx, next) => {
+  try {
+    return await handleRequest(ctx, next);
+  } catch (err) {
+    if (!isDatabaseOutage(err)) throw err;
+    const requestId = ctx.locals.requestId ?? randomUUID().slice(0, 8);
+    console.error(`[${requestId}] ${ctx.request.method} ${ctx.url.pathname}: the database cannot be reached (${(err as Error).message})`);
+    const page = () => new Response(OUTAGE_PAGE, { status: 503, headers: { 'content-type': 'text/html; charset=utf-8', 'retry-after': outageResponse().headers.get('retry-after')! } });
+    return withHeaders(ctx.url.pathname.startsWith('/api/') ? outageResponse() : page(), requestId);
+  }
 });

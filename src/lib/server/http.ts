@@ -2,6 +2,8 @@ import type { APIContext, APIRoute } from 'astro';
 import { ZodError, type ZodType, type z } from 'zod';
 import { readJsonBody } from './body-limits.ts';
 import { AppError, InvalidInput } from './errors.ts';
+// Loaded with the middleware, so that it notes every request's response from the first on.
+export { pacedBody } from './paced-body.ts';
 
 /** A JSON response with the given status (and optional extra headers). */
 export function json(body: unknown, status = 200, headers: Record<string, string> = {}): Response {
@@ -15,7 +17,25 @@ export function json(body: unknown, status = 200, headers: Record<string, string
 export function errorResponse(status: number, code: string, message: string, fields?: Record<string, string>): Response {
   const headers: Record<string, string> = {};
   if (status === 429) headers['retry-after'] = '60';
+  if (status === 503) headers['retry-after'] = String(OUTAGE_RETRY_SECONDS);
   return json({ error: { code, message, ...(fields ? { fields } : {}) } }, status, headers);
+}
+
+/** How long a client is asked to wait while the database cannot be reached (it reconnects by itself). */
+const OUTAGE_RETRY_SECONDS = 5;
+const CONNECTION_LOST = /ECONNREFUSED|ECONNRESET|ETIMEDOUT|EHOSTUNREACH|57P0[123]|terminating connection|Connection terminated|the database system is (starting up|shutting down)|timeout exceeded when trying to connect/i;
+
+/** True for an error that says the database cannot be reached just now (a restart, an outage), not a bug. */
+export function isDatabaseOutage(err: unknown): boolean {
+  const e = err as { name?: string; message?: string; code?: string; parent?: { code?: string; message?: string } } | null;
+  if (!e) return false;
+  if (/^Sequelize(Connection\w*|HostNotReachable|HostNotFound|InvalidConnection|AccessDenied)Error$/.test(e.name ?? '')) return true;
+  return CONNECTION_LOST.test(`${e.message ?? ''} ${e.code ?? ''} ${e.parent?.code ?? ''} ${e.parent?.message ?? ''}`);
+}
+
+/** The answer while the database cannot be reached: 503 in the one JSON shape, with Retry-After. */
+export function outageResponse(): Response {
+  return errorResponse(503, 'database_unavailable', `The database cannot be reached just now; nothing was changed. Try again in ${OUTAGE_RETRY_SECONDS} seconds.`);
 }
 
 /** Turns a zod error into field messages keyed by dotted path. */
@@ -38,8 +58,9 @@ export function readJson(request: Request): Promise<unknown> {
 }
 
 /**
- * Wraps an endpoint: typed errors become their status and JSON shape, anything else is
- * logged with the request id and answered as a plain 500 without a stack.
+ * Wraps an endpoint: typed errors become their status and JSON shape, a database outage a 503
+ * with Retry-After, anything else is logged with the request id and answered as a plain 500
+ * without a stack.
  */
 export function apiRoute(handler: (ctx: APIContext) => Promise<Response> | Response): APIRoute {
   return async (ctx) => {
@@ -49,6 +70,10 @@ export function apiRoute(handler: (ctx: APIContext) => Promise<Response> | Respo
       if (err instanceof AppError) return errorResponse(err.status, err.code, err.message, err.fields);
       if (err instanceof ZodError) return errorResponse(400, 'invalid_input', 'Some fields need attention.', zodFields(err));
       const requestId = ctx.locals.requestId;
+      if (isDatabaseOutage(err)) {
+        console.error(`[${requestId}] ${ctx.request.method} ${new URL(ctx.request.url).pathname}: the database cannot be reached (${(err as Error).message})`);
+        return outageResponse();
+      }
       console.error(`[${requestId}] ${ctx.request.method} ${new URL(ctx.request.url).pathname} failed:`, err);
       return errorResponse(500, 'internal', `Something went wrong on our side (request ${requestId}). Nothing was lost; try again.`);
     }
