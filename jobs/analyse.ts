@@ -27,6 +27,9 @@ import { eachAtMost, oneAtATime } from './each-at-most.ts';
 import { enginePool } from './engine-pool.ts';
 import type { JobHandler } from './registry.ts';
 
+/** How a print whose scan cannot be decoded cleanly (corrupt or cut short) is marked, before the reason. */
+export const DAMAGED_SCAN = 'Damaged scan: rescan advised.';
+
 /** Marks an item failed with a reason fit to show the archivist. */
 async function fail(itemId: string, reason: string): Promise<void> {
   await Item.update({ state: 'failed', failureReason: reason.slice(0, 1000) }, { where: { id: itemId, state: { [Op.ne]: 'ready' } } });
@@ -105,8 +108,9 @@ async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<voi
     console.log(`analyse ${item.id}: ${ms(started, performance.now())} ms (engine ${ms(started, engineDone)}, files ${ms(engineDone, filesDone)}, database ${ms(filesDone, performance.now())})`);
   } catch (err) {
     if (err instanceof ScanRejected) {
-      // A damaged or cut-short scan stays damaged: no retry, the reason goes to the archivist.
-      await fail(item.id, err.message);
+      // A damaged or cut-short scan stays damaged: no retry, the reason goes to the archivist, and
+      // the original is kept as it came (the scanner or the copy is to blame, not the print).
+      await fail(item.id, err.code === 'unreadable' ? `${DAMAGED_SCAN} ${err.message}` : err.message);
     } else if (job.retryCount >= job.retryLimit) {
       await fail(item.id, `Processing failed after ${job.retryCount + 1} attempts: ${(err as Error)?.message ?? err}`);
       await settleIfDone(item.batchId);

@@ -204,7 +204,10 @@ function decodeError(err: unknown): ScanRejected {
  */
 function decoder(input: string | Buffer, probe: ScanProbe, keep16: boolean): sharp.Sharp {
   let img = sharp(input, {
-    failOn: 'truncated',
+    // A JPEG whose entropy data is damaged still decodes (grey or smeared blocks) with only a
+    // libjpeg warning ("Corrupt JPEG data: …"): refused here, so the print is marked damaged
+    // instead of passing as a good scan. libtiff's and libpng's warnings are mostly harmless.
+    failOn: probe.format === 'jpeg' ? 'warning' : 'truncated',
     limitInputPixels: probe.storedWidth * probe.storedHeight,
     sequentialRead: true,
   }).rotate();
