@@ -1,9 +1,10 @@
+import { createHash } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { BrowserContext } from 'playwright-core';
 import { closeDb } from '../../db/index.ts';
 import { DEMO_PASSWORD, DEMO_USERS } from '../../db/seeders/demo.ts';
 import { launchBrowser, signInPage, snap } from '../support/browser.ts';
-import { BASE } from '../support/http.ts';
+import { BASE, signedIn } from '../support/http.ts';
 import { waitForMail } from '../support/outbox.ts';
 
 const owner = DEMO_USERS.find((u) => u.role === 'owner')!;
@@ -38,6 +39,44 @@ describe('signing in and the shell', () => {
     await page.waitForURL(/\/signin/);
     await page.goto(`${BASE}/team`);
     expect(new URL(page.url()).pathname).toBe('/signin');
+    await page.close();
+  });
+
+  it('allows only the scripts of the build: the same policy on every response, and an inline script injected into a page is refused', async () => {
+    const owner1 = await signedIn(owner.email, DEMO_PASSWORD);
+    const policies = new Set<string>();
+    for (const path of ['/signin', '/team', '/batches', '/api/me']) policies.add((await owner1.get(path, { accept: 'text/html' })).headers.get('content-security-policy') ?? '');
+    // Never worked out from a page's content, so nothing a page happens to contain can be allowed by it.
+    expect([...policies]).toHaveLength(1);
+    const policy = [...policies][0];
+    const scriptSrc = policy.split(';').find((d) => d.trim().startsWith('script-src'))!;
+    expect(scriptSrc).not.toContain('unsafe-inline');
+    // Every inline script our pages do have (the island loader) is in it by its hash.
+    const team = await owner1.get('/team', { accept: 'text/html' });
+    const inline = [...team.text.matchAll(/<script\b(?![^>]*\bsrc=)[^>]*>([\s\S]*?)<\/script>/gi)].map((m) => m[1]);
+    expect(inline.length).toBeGreaterThan(0);
+    for (const script of inline) expect(scriptSrc).toContain(`'sha256-${createHash('sha256').update(script, 'utf8').digest('base64')}'`);
+
+    // A script that reached a page (as a caption rendered raw would) is refused by Chromium, while
+    // the page's own islands still hydrate.
+    const page = await browser.newPage();
+    const refused: string[] = [];
+    page.on('console', (m) => {
+      if (/Content Security Policy/i.test(m.text())) refused.push(m.text());
+    });
+    await signInPage(page, owner.email, DEMO_PASSWORD);
+    await page.route(`${BASE}/team`, async (route) => {
+      const res = await route.fetch();
+      const html = (await res.text()).replace('<main', '<p>Caption: <script>window.__injected = true</script></p><main');
+      await route.fulfill({ response: res, body: html });
+    });
+    await page.goto(`${BASE}/team`);
+    await page.locator('button:has-text("Send invitation"):enabled').waitFor({ timeout: 20_000 });
+    await expect(page.evaluate(() => (window as { __injected?: boolean }).__injected)).resolves.toBeUndefined();
+    expect(refused.some((m) => /inline script/i.test(m))).toBe(true);
+    await page.unroute(`${BASE}/team`);
+    await page.getByRole('button', { name: 'Sign out' }).click();
+    await page.waitForURL(/\/signin/);
     await page.close();
   });
 

@@ -26,7 +26,7 @@ describe('the web surface', () => {
       expect(csp).toContain("default-src 'self'");
       expect(csp).toContain("frame-ancestors 'none'");
       expect(csp).toContain("object-src 'none'");
-      // Only our own scripts and the page's own inline scripts by hash: no 'unsafe-inline' for scripts.
+      // Only our own script files and the build's inline scripts by hash: no 'unsafe-inline' for scripts.
       expect(csp.split(';').find((d) => d.trim().startsWith('script-src'))).not.toContain('unsafe-inline');
       expect(r.headers.get('x-content-type-options')).toBe('nosniff');
       expect(r.headers.get('x-frame-options')).toBe('DENY');
