@@ -4,6 +4,7 @@ import { analyseHandler } from './analyse.ts';
 import { renderHandler } from './render.ts';
 import { batchSettledHandler } from './batch-settled.ts';
 import { exportHandler } from './export.ts';
+import { purgeRemovedHandler } from './purge-removed.ts';
 
 /** One queue's handler as the worker registers it. */
 export interface JobHandler {
@@ -18,3 +19,4 @@ export interface JobHandler {
 export const HANDLERS: JobHandler[] = [];
 HANDLERS.push(analyseHandler, renderHandler, batchSettledHandler);
 HANDLERS.push(exportHandler);
+HANDLERS.push(purgeRemovedHandler);

@@ -12,6 +12,7 @@ import { registerLoop } from './loops.ts';
 import { startRenderFeeder } from './render.ts';
 import { oneAtATime } from './each-at-most.ts';
 import { reconcileOriginals } from '../src/lib/server/reconcile.ts';
+import { schedulePurge } from './purge-removed.ts';
 
 sharp.cache(false);
 
@@ -58,6 +59,7 @@ startRenderFeeder();
 const reconcile = oneAtATime('reconcile storage', () => reconcileOriginals().then(() => undefined));
 void reconcile();
 setInterval(reconcile, RECONCILE_MINUTES * 60_000).unref();
+await schedulePurge();
 console.log(`worker ${process.pid}: working on ${HANDLERS.map((h) => h.queue).join(', ') || 'no queues yet'}`);
 
 let stopping = false;

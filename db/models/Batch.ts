@@ -18,6 +18,8 @@ export class Batch extends Model<InferAttributes<Batch>, InferCreationAttributes
   declare finishedNotifiedAt: CreationOptional<Date | null>;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
+  /** When the batch was removed (with its prints): restorable for 30 days, then purged. */
+  declare deletedAt: CreationOptional<Date | null>;
 
   static initModel(sequelize: Sequelize) {
     Batch.init(
@@ -34,8 +36,10 @@ export class Batch extends Model<InferAttributes<Batch>, InferCreationAttributes
         finishedNotifiedAt: DataTypes.DATE,
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
+        deletedAt: DataTypes.DATE,
       },
-      { sequelize, tableName: 'batches', modelName: 'batch', underscored: true },
+      // paranoid: every query through the model leaves removed batches out
+      { sequelize, tableName: 'batches', modelName: 'batch', underscored: true, paranoid: true },
     );
   }
 }

@@ -42,8 +42,12 @@ export class Item extends Model<InferAttributes<Item>, InferCreationAttributes<I
   declare printOriginalId: CreationOptional<string | null>;
   declare metadataUpdatedAt: CreationOptional<Date | null>;
   declare lockVersion: CreationOptional<number>;
+  /** Which upload (one drop of files) brought the print in: its prints are numbered by file name. */
+  declare uploadKey: CreationOptional<string | null>;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
+  /** When the print was removed: it stays restorable for 30 days, then the purge deletes it. */
+  declare deletedAt: CreationOptional<Date | null>;
 
   static initModel(sequelize: Sequelize) {
     Item.init(
@@ -80,10 +84,13 @@ export class Item extends Model<InferAttributes<Item>, InferCreationAttributes<I
         printOriginalId: DataTypes.UUID,
         metadataUpdatedAt: DataTypes.DATE,
         lockVersion: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
+        uploadKey: DataTypes.STRING(64),
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
+        deletedAt: DataTypes.DATE,
       },
-      { sequelize, tableName: 'items', modelName: 'item', underscored: true },
+      // paranoid: every query through the model leaves removed prints out
+      { sequelize, tableName: 'items', modelName: 'item', underscored: true, paranoid: true },
     );
   }
 }

@@ -1,6 +1,7 @@
 /**
  * The batch review table: every print with its thumbnail, state, fade grade, paper-base swatch,
- * dye bars and decision; sort and filter; select several for one decision.
+ * dye bars and decision; sort and filter; select several for one decision (undone at once if need
+ * be), to clear their decisions, to move them to another batch or to remove them.
  */
 import { useMemo, useState } from 'react';
 import type { ItemRow } from '../../lib/review/types.ts';
@@ -23,7 +24,12 @@ interface Props {
   batchId: string;
   rows: ItemRow[];
   canDecide: boolean;
+  /** The archive's other batches, where prints can be moved. */
+  otherBatches?: { id: string; name: string }[];
 }
+
+type BulkDecision = Exclude<Decision, 'accepted_adjusted'> | 'undecided';
+const plural = (n: number, one: string, many = `${one}s`) => `${n} ${n === 1 ? one : many}`;
 
 type SortKey = 'seq' | 'grade' | 'paper' | 'loss' | 'decision';
 const SORTS: { key: SortKey; words: string }[] = [
@@ -40,7 +46,7 @@ function hex(rgb: readonly number[]): string {
   return `#${rgb.map((v) => Math.round(Math.min(1, Math.max(0, v)) * 255).toString(16).padStart(2, '0')).join('')}`;
 }
 
-export default function BatchTable({ batchId, rows: initialRows, canDecide }: Props) {
+export default function BatchTable({ batchId, rows: initialRows, canDecide, otherBatches = [] }: Props) {
   const [rows, setRows] = useState(initialRows);
   const [state, setState] = useState<string>('all');
   const [grade, setGrade] = useState<string>('all');
@@ -48,7 +54,9 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide }: Pr
   const [sort, setSort] = useState<SortKey>('seq');
   const [selected, setSelected] = useState<Set<string>>(new Set());
   const [busy, setBusy] = useState(false);
-  const [message, setMessage] = useState<{ kind: 'info' | 'error'; text: string; details?: string[] } | null>(null);
+  const [message, setMessage] = useState<{ kind: 'info' | 'error'; text: string; details?: string[]; undo?: string } | null>(null);
+  const [pending, setPending] = useState<null | 'move' | 'remove'>(null);
+  const [moveTo, setMoveTo] = useState(otherBatches[0]?.id ?? '');
   const [rescan, setRescan] = useState<{ open: boolean; negativeAvailable: NegativeAvailability; negativeLocation: string }>({ open: false, negativeAvailable: 'unknown', negativeLocation: '' });
 
   const shown = useMemo(() => {
@@ -68,7 +76,8 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide }: Pr
     return list.sort(by[sort]);
   }, [rows, state, grade, decision, sort]);
 
-  const selectable = shown.filter((r) => r.state === 'ready');
+  // failed and waiting prints can be chosen too: to be moved or removed (a decision skips them and says why)
+  const selectable = shown;
   const allShownSelected = selectable.length > 0 && selectable.every((r) => selected.has(r.id));
   const toggle = (id: string) =>
     setSelected((s) => {
@@ -78,7 +87,20 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide }: Pr
       return n;
     });
 
-  async function decideSelected(d: Exclude<Decision, 'accepted_adjusted'>) {
+  type Answer = { bulkId: string; decided: { id: string; lockVersion: number; decision: Decision | null }[]; conflicts: { id: string; message: string }[] };
+  const seqOf = (id: string) => rows.find((r) => r.id === id)?.seq ?? id;
+
+  function applyAnswer(res: Answer, negativeLocation: string | null) {
+    const done = new Map(res.decided.map((x) => [x.id, x]));
+    setRows((rs) => rs.map((r) => (done.has(r.id) ? { ...r, decision: done.get(r.id)!.decision, lockVersion: done.get(r.id)!.lockVersion, negativeLocation: done.get(r.id)!.decision === 'rescan' ? negativeLocation : null } : r)));
+  }
+
+  function failed(err: unknown, fallback: string) {
+    const e = err as ApiError;
+    setMessage({ kind: 'error', text: e.message ?? fallback, details: e.fields ? Object.entries(e.fields).map(([id, m]) => `Print ${seqOf(id)}: ${m}`) : [] });
+  }
+
+  async function decideSelected(d: BulkDecision) {
     const items = rows.filter((r) => selected.has(r.id)).map((r) => ({ id: r.id, lockVersion: r.lockVersion }));
     if (items.length === 0) return;
     setBusy(true);
@@ -89,25 +111,74 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide }: Pr
       if (rescan.negativeLocation.trim()) body.negativeLocation = rescan.negativeLocation.trim();
     }
     try {
-      const res = await api<{ decided: { id: string; lockVersion: number; decision: Decision }[]; conflicts: { id: string; message: string }[] }>(`/api/batches/${batchId}/decisions`, { body });
-      const done = new Map(res.decided.map((x) => [x.id, x]));
-      setRows((rs) => rs.map((r) => (done.has(r.id) ? { ...r, decision: done.get(r.id)!.decision, lockVersion: done.get(r.id)!.lockVersion, negativeLocation: d === 'rescan' ? rescan.negativeLocation.trim() || null : null } : r)));
+      const res = await api<Answer>(`/api/batches/${batchId}/decisions`, { body });
+      applyAnswer(res, d === 'rescan' ? rescan.negativeLocation.trim() || null : null);
       setSelected(new Set());
       setRescan((x) => ({ ...x, open: false }));
-      const seqOf = (id: string) => rows.find((r) => r.id === id)?.seq;
+      const what = d === 'undecided' ? 'Back to not reviewed' : DECISION_WORDS[d];
       setMessage({
         kind: res.conflicts.length ? 'error' : 'info',
-        text: `${DECISION_WORDS[d]}: ${res.decided.length} print${res.decided.length === 1 ? '' : 's'}.${res.conflicts.length ? ` ${res.conflicts.length} left as they were:` : ''}`,
+        text: `${what}: ${plural(res.decided.length, 'print')}.${res.conflicts.length ? ` ${res.conflicts.length} left as they were:` : ''}`,
         details: res.conflicts.map((c) => `Print ${seqOf(c.id)}: ${c.message}`),
+        undo: res.bulkId,
       });
     } catch (err) {
-      const e = err as ApiError;
-      setMessage({ kind: 'error', text: e.message ?? 'The decision could not be saved.', details: e.fields ? Object.entries(e.fields).map(([id, m]) => `Print ${rows.find((r) => r.id === id)?.seq ?? id}: ${m}`) : [] });
+      failed(err, 'The decision could not be saved.');
     } finally {
       setBusy(false);
     }
   }
 
+  async function undo(bulkId: string) {
+    setBusy(true);
+    try {
+      const res = await api<Answer>(`/api/batches/${batchId}/decisions/undo`, { body: { bulkId } });
+      applyAnswer(res, null);
+      setMessage({
+        kind: res.conflicts.length ? 'error' : 'info',
+        text: `Undone: ${plural(res.decided.length, 'print')} back to their decisions before.${res.conflicts.length ? ` ${res.conflicts.length} changed since and kept as they are:` : ''}`,
+        details: res.conflicts.map((c) => `Print ${seqOf(c.id)}: ${c.message}`),
+      });
+    } catch (err) {
+      failed(err, 'The undo could not be saved.');
+    } finally {
+      setBusy(false);
+    }
+  }
+
+  /** Moves or removes the chosen prints one by one; each print's answer is reported. */
+  async function eachSelected(action: 'move' | 'remove') {
+    const chosen = rows.filter((r) => selected.has(r.id));
+    const target = otherBatches.find((b) => b.id === moveTo);
+    setBusy(true);
+    setMessage(null);
+    const gone: string[] = [];
+    const problems: string[] = [];
+    for (const r of chosen) {
+      try {
+        if (action === 'move') await api(`/api/items/${r.id}/move`, { body: { batchId: moveTo } });
+        else await api(`/api/items/${r.id}/removal`, { body: { confirm: true } });
+        gone.push(r.id);
+      } catch (err) {
+        problems.push(`Print ${r.seq}: ${(err as ApiError).message}`);
+      }
+    }
+    setRows((rs) => rs.filter((r) => !gone.includes(r.id)));
+    setSelected(new Set());
+    setPending(null);
+    setBusy(false);
+    setMessage({
+      kind: problems.length ? 'error' : 'info',
+      text:
+        action === 'move'
+          ? `Moved ${plural(gone.length, 'print')} to "${target?.name ?? 'the other batch'}".`
+          : `Removed ${plural(gone.length, 'print')}. They can be restored from Recently removed for 30 days.`,
+      details: problems,
+    });
+  }
+
+  const chosen = rows.filter((r) => selected.has(r.id));
+  const chosenDecided = chosen.filter((r) => r.decision).length;
   const firstToReview = rows.find((r) => r.state === 'ready' && !r.decision);
   return (
     <section className="space-y-3" data-batch-table>
@@ -149,7 +220,34 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide }: Pr
           <button type="button" className="btn-primary py-1.5" disabled={busy || selected.size === 0} onClick={() => void decideSelected('accepted')} data-bulk="accepted">Accept selected</button>
           <button type="button" className="btn-quiet py-1.5" disabled={busy || selected.size === 0} onClick={() => setRescan((r) => ({ ...r, open: !r.open }))} aria-expanded={rescan.open}>Set aside for rescan…</button>
           <button type="button" className="btn-quiet py-1.5" disabled={busy || selected.size === 0} onClick={() => void decideSelected('skipped')} data-bulk="skipped">Leave for later</button>
+          <button type="button" className="btn-quiet py-1.5" disabled={busy || selected.size === 0} onClick={() => void decideSelected('undecided')} data-bulk="undecided">Back to not reviewed</button>
+          <button type="button" className="btn-quiet py-1.5" disabled={busy || selected.size === 0 || otherBatches.length === 0} onClick={() => setPending(pending === 'move' ? null : 'move')} aria-expanded={pending === 'move'} data-bulk="move">Move to another batch…</button>
+          <button type="button" className="btn-quiet py-1.5 text-danger-700" disabled={busy || selected.size === 0} onClick={() => setPending(pending === 'remove' ? null : 'remove')} aria-expanded={pending === 'remove'} data-bulk="remove">Remove…</button>
           {selected.size > 0 && <button type="button" className="btn-quiet py-1.5" onClick={() => setSelected(new Set())}>Clear selection</button>}
+          {pending === 'move' && selected.size > 0 && (
+            <div className="flex w-full flex-wrap items-end gap-3 pt-2" data-move-panel>
+              <div>
+                <label htmlFor="move-to" className="label">Move {plural(selected.size, 'print')} to</label>
+                <select id="move-to" className="field w-auto py-1.5" value={moveTo} onChange={(e) => setMoveTo(e.target.value)}>
+                  {otherBatches.map((b) => <option key={b.id} value={b.id}>{b.name}</option>)}
+                </select>
+              </div>
+              <p className="text-xs text-ink-500">They take the next numbers there, with their decisions, corrections and captions.</p>
+              <button type="button" className="btn-primary py-1.5" disabled={busy || !moveTo} onClick={() => void eachSelected('move')} data-confirm-move>Move</button>
+            </div>
+          )}
+          {pending === 'remove' && selected.size > 0 && (
+            <div className="w-full space-y-2 pt-2" role="alertdialog" aria-labelledby="remove-what" data-remove-panel>
+              <p id="remove-what" className="text-ink-900">
+                Remove {chosen.length === 1 ? `print ${chosen[0].seq}` : plural(chosen.length, 'print')} from this batch{chosenDecided ? `, with ${chosenDecided === chosen.length && chosen.length === 1 ? 'its decision' : `the decisions on ${plural(chosenDecided, 'print')}`}` : ''}, captions and corrections?
+              </p>
+              <p className="text-xs text-ink-500">They leave every list, the rescan list and exports at once. Recently removed keeps them, original scans included, for 30 days; after that they are deleted for good.</p>
+              <div className="flex gap-2">
+                <button type="button" className="btn-primary bg-danger-700 py-1.5" disabled={busy} onClick={() => void eachSelected('remove')} data-confirm-remove>Remove {plural(chosen.length, 'print')}</button>
+                <button type="button" className="btn-quiet py-1.5" onClick={() => setPending(null)}>Keep them</button>
+              </div>
+            </div>
+          )}
           {rescan.open && selected.size > 0 && (
             <div className="flex w-full flex-wrap items-end gap-3 pt-2">
               <fieldset>
@@ -178,6 +276,9 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide }: Pr
         {message && (
           <div className={message.kind === 'info' ? 'notice' : 'notice-caution'} data-bulk-message>
             {message.text}
+            {message.undo && canDecide && (
+              <button type="button" className="btn-quiet ml-3 py-0.5" disabled={busy} onClick={() => void undo(message.undo!)} data-undo-bulk>Undo</button>
+            )}
             {message.details && message.details.length > 0 && <ul className="mt-1 list-disc pl-5">{message.details.map((d) => <li key={d}>{d}</li>)}</ul>}
           </div>
         )}
@@ -213,11 +314,11 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide }: Pr
               <tr key={r.id} data-item-row={r.id} data-seq={r.seq} data-state={r.state} data-decision={r.decision ?? 'none'} className={selected.has(r.id) ? 'bg-lamp-500/5' : undefined}>
                 {canDecide && (
                   <td className="px-3 py-2">
-                    <input type="checkbox" aria-label={`Select print ${r.seq}`} checked={selected.has(r.id)} disabled={r.state !== 'ready'} onChange={() => toggle(r.id)} className="accent-lamp-600" />
+                    <input type="checkbox" aria-label={`Select print ${r.seq}`} checked={selected.has(r.id)} onChange={() => toggle(r.id)} className="accent-lamp-600" />
                   </td>
                 )}
                 <td className="px-3 py-2">
-                  <a href={r.state === 'ready' ? `/items/${r.id}` : undefined} className="flex items-center gap-3 text-ink-900 hover:text-lamp-700">
+                  <a href={r.state === 'ready' || r.state === 'failed' ? `/items/${r.id}` : undefined} className="flex items-center gap-3 text-ink-900 hover:text-lamp-700">
                     {r.hasThumbnail ? (
                       <img src={`/api/items/${r.id}/thumbnail`} alt="" width={64} height={44} loading="lazy" className="h-11 w-16 rounded border border-paper-200 object-cover" />
                     ) : (
@@ -229,7 +330,10 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide }: Pr
                     </span>
                   </a>
                 </td>
-                <td className="px-3 py-2 text-ink-700">{STATE_WORDS[r.state as keyof typeof STATE_WORDS] ?? r.state}</td>
+                <td className="px-3 py-2 text-ink-700">
+                  {STATE_WORDS[r.state as keyof typeof STATE_WORDS] ?? r.state}
+                  {r.failureReason && <span className="block max-w-[16rem] text-xs text-danger-700" data-failure-reason>{r.failureReason}</span>}
+                </td>
                 <td className="px-3 py-2">
                   {r.fadeGrade ? GRADE_WORDS[r.fadeGrade as FadeGradeName] ?? r.fadeGrade : '–'}
                   {r.rescanAdvised && <span className="block text-xs text-warn-700">negative would help</span>}

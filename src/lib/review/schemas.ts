@@ -32,7 +32,8 @@ export type DecisionInput = z.infer<typeof decisionInput>;
 /** A bulk decision over a selection of one batch's prints; adjusted acceptance needs a print-by-print look. */
 export const bulkDecisionInput = z
   .object({
-    decision: z.enum(['accepted', 'rescan', 'skipped'], { errorMap: () => ({ message: 'In bulk, choose accepted, rescan or skipped.' }) }),
+    /** `undecided` clears the decision: the prints are "not reviewed yet" again. */
+    decision: z.enum(['accepted', 'rescan', 'skipped', 'undecided'], { errorMap: () => ({ message: 'In bulk, choose accepted, rescan, skipped or undecided.' }) }),
     items: z
       .array(z.object({ id: z.string().uuid('Each item needs its id.'), lockVersion }).strict())
       .min(1, 'Select at least one print.')
@@ -51,6 +52,9 @@ export const bulkDecisionInput = z
     }
   });
 export type BulkDecisionInput = z.infer<typeof bulkDecisionInput>;
+
+/** Undoing one bulk decision, named by the id its answer gave. */
+export const undoBulkInput = z.object({ bulkId: z.string().uuid('Name the bulk decision to undo by its bulkId.') }).strict();
 
 /** A new operator version of a print's correction. */
 export const correctionInput = z

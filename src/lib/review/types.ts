@@ -58,5 +58,7 @@ export interface ItemRow {
   negativeLocation: string | null;
   lockVersion: number;
   hasThumbnail: boolean;
+  /** Why a failed print could not be read, in plain words. */
+  failureReason: string | null;
 }
 

@@ -45,7 +45,7 @@ export async function stateCounts(batchIds: string[]): Promise<Map<string, State
   if (batchIds.length === 0) return out;
   const rows = await db().query<{ batch_id: string; state: ItemState; n: string; full_size: string }>(
     `SELECT batch_id, state, count(*) AS n, count(*) FILTER (WHERE state = 'ready' AND render_version >= current_version) AS full_size
-       FROM items WHERE batch_id IN (:ids) GROUP BY batch_id, state`,
+       FROM items WHERE batch_id IN (:ids) AND deleted_at IS NULL GROUP BY batch_id, state`,
     { replacements: { ids: batchIds }, type: QueryTypes.SELECT },
   );
   for (const r of rows) {

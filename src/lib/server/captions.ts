@@ -132,7 +132,8 @@ export async function metadataOf(items: Item[]): Promise<ItemMetadata[]> {
 
 /** Every print of a batch with its caption form, in scan order. */
 export async function batchMetadata(batchId: string): Promise<ItemMetadata[]> {
-  const items = await Item.findAll({ where: { batchId }, order: [['seq', 'ASC']] });
+  // a print whose scan could not be read has no picture to caption: it waits on the batch page for a retry or removal
+  const items = await Item.findAll({ where: { batchId, state: { [Op.ne]: 'failed' } }, order: [['seq', 'ASC']] });
   return metadataOf(items);
 }
 

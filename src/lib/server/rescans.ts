@@ -38,7 +38,7 @@ export interface RescanFilter {
 
 /** Every print set aside for a rescan in an archive, by batch and scan order. */
 export async function listRescans(archiveId: string, filter: RescanFilter = {}): Promise<RescanRow[]> {
-  const where = ["i.archive_id = :archiveId", "i.decision = 'rescan'"];
+  const where = ["i.archive_id = :archiveId", "i.decision = 'rescan'", 'i.deleted_at IS NULL'];
   if (filter.batchId) where.push('i.batch_id = :batchId');
   if (filter.location !== undefined) where.push(filter.location === '' ? "coalesce(i.negative_location, '') = ''" : 'i.negative_location = :location');
   const rows = await db().query<Record<string, unknown>>(
@@ -71,12 +71,12 @@ export async function listRescans(archiveId: string, filter: RescanFilter = {}):
 export async function rescanFacets(archiveId: string): Promise<{ batches: { id: string; name: string; count: number }[]; locations: { location: string; count: number }[] }> {
   const batches = await db().query<{ id: string; name: string; n: string }>(
     `SELECT b.id, b.name, count(*) AS n FROM items i JOIN batches b ON b.id = i.batch_id
-      WHERE i.archive_id = :archiveId AND i.decision = 'rescan' GROUP BY b.id, b.name, b.created_at ORDER BY b.created_at, b.name`,
+      WHERE i.archive_id = :archiveId AND i.decision = 'rescan' AND i.deleted_at IS NULL GROUP BY b.id, b.name, b.created_at ORDER BY b.created_at, b.name`,
     { replacements: { archiveId }, type: QueryTypes.SELECT },
   );
   const locations = await db().query<{ location: string; n: string }>(
     `SELECT coalesce(negative_location, '') AS location, count(*) AS n FROM items
-      WHERE archive_id = :archiveId AND decision = 'rescan' GROUP BY 1 ORDER BY 1`,
+      WHERE archive_id = :archiveId AND decision = 'rescan' AND deleted_at IS NULL GROUP BY 1 ORDER BY 1`,
     { replacements: { archiveId }, type: QueryTypes.SELECT },
   );
   return {
@@ -89,7 +89,7 @@ export async function rescanFacets(archiveId: string): Promise<{ batches: { id: 
 export async function attachedRescans(archiveId: string): Promise<{ itemId: string; batchId: string; batchName: string; seq: number; state: string; thumbnailUrl: string; updatedAt: string }[]> {
   const rows = await db().query<Record<string, unknown>>(
     `SELECT i.id, i.batch_id, b.name AS batch_name, i.seq, i.state, i.updated_at FROM items i JOIN batches b ON b.id = i.batch_id
-      WHERE i.archive_id = :archiveId AND i.print_original_id IS NOT NULL AND i.decision IS NULL ORDER BY i.updated_at DESC LIMIT 100`,
+      WHERE i.archive_id = :archiveId AND i.print_original_id IS NOT NULL AND i.decision IS NULL AND i.deleted_at IS NULL ORDER BY i.updated_at DESC LIMIT 100`,
     { replacements: { archiveId }, type: QueryTypes.SELECT },
   );
   return rows.map((r) => ({

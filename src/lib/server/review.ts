@@ -3,9 +3,10 @@
  * optimistic concurrency (items.lock_version), bulk decisions, new and restored correction
  * versions (each queues a render), and full-resolution crops for the 1:1 view.
  */
+import { randomUUID } from 'node:crypto';
 import sharp from 'sharp';
 import { Op, type Transaction } from 'sequelize';
-import { Batch, Correction, Item, Original, User, db } from '../../../db/index.ts';
+import { AuditEvent, Batch, Correction, Item, Original, User, db } from '../../../db/index.ts';
 import { correctionSchema, applyCorrection, buildChannelLuts, type Correction as CorrectionParams } from '../restoration/correction.ts';
 import { probeScan } from '../restoration/imaging.ts';
 import type { Analysis } from '../restoration/analysis.ts';
@@ -136,12 +137,13 @@ function assertReady(item: Item) {
 }
 
 /** Column values for a decision; negative details are kept only with a rescan. */
-function decisionValues(input: Pick<DecisionInput, 'decision' | 'negativeAvailable' | 'negativeLocation' | 'rescanNote'>, userId: string) {
+function decisionValues(input: { decision: Decision | 'undecided' } & Pick<DecisionInput, 'negativeAvailable' | 'negativeLocation' | 'rescanNote'>, userId: string) {
   const rescan = input.decision === 'rescan';
+  const cleared = input.decision === 'undecided';
   return {
-    decision: input.decision,
-    decidedBy: userId,
-    decidedAt: new Date(),
+    decision: cleared ? null : (input.decision as Decision),
+    decidedBy: cleared ? null : userId,
+    decidedAt: cleared ? null : new Date(),
     negativeAvailable: rescan ? (input.negativeAvailable ?? 'unknown') : null,
     negativeLocation: rescan ? input.negativeLocation || null : null,
     rescanNote: rescan ? input.rescanNote || null : null,
@@ -200,10 +202,23 @@ export async function decide(locals: App.Locals, itemId: string, input: Decision
   return { detail: await itemDetail(item), queuedVersion };
 }
 
-/** What a bulk decision did, print by print. */
+/** What a bulk decision did, print by print; `bulkId` names it for an undo. */
 export interface BulkResult {
-  decided: { id: string; lockVersion: number; decision: Decision }[];
+  bulkId: string;
+  decided: { id: string; lockVersion: number; decision: Decision | null }[];
   conflicts: { id: string; code: string; message: string }[];
+}
+
+/** A print's decision as it was before a change, kept in the audit trail so the change can be undone. */
+function decisionState(it: Item) {
+  return {
+    decision: it.decision ?? null,
+    decidedBy: it.decidedBy ?? null,
+    decidedAt: it.decidedAt ? it.decidedAt.toISOString() : null,
+    negativeAvailable: it.negativeAvailable ?? null,
+    negativeLocation: it.negativeLocation ?? null,
+    rescanNote: it.rescanNote ?? null,
+  };
 }
 
 /**
@@ -215,11 +230,12 @@ export async function bulkDecide(locals: App.Locals, batchId: string, input: Bul
   if (!batch) throw new NotFound('That batch');
   requireArchiveRole(locals, batch.archiveId, 'editor', 'That batch');
   const userId = locals.user!.id;
+  const bulkId = randomUUID();
   return db().transaction(async (transaction) => {
     const ids = input.items.map((i) => i.id);
     const rows = await Item.findAll({ where: { id: ids, batchId }, transaction, lock: transaction.LOCK.UPDATE });
     const byId = new Map(rows.map((r) => [r.id, r]));
-    const result: BulkResult = { decided: [], conflicts: [] };
+    const result: BulkResult = { bulkId, decided: [], conflicts: [] };
     for (const want of input.items) {
       const it = byId.get(want.id);
       if (!it) {
@@ -236,7 +252,7 @@ export async function bulkDecide(locals: App.Locals, batchId: string, input: Bul
         continue;
       }
       const values = decisionValues(input, userId);
-      const previous = { decision: it.decision, decidedBy: it.decidedBy };
+      const previous = decisionState(it);
       await it.update({ ...values, lockVersion: it.lockVersion + 1 }, { transaction });
       await recordAudit(
         {
@@ -245,12 +261,69 @@ export async function bulkDecide(locals: App.Locals, batchId: string, input: Bul
           action: 'item.decide',
           subjectType: 'item',
           subjectId: it.id,
-          details: { decision: input.decision, bulk: true, version: it.currentVersion, previous, negativeAvailable: values.negativeAvailable, negativeLocation: values.negativeLocation },
+          details: { decision: values.decision, bulk: true, bulkId, lockVersionAfter: it.lockVersion, version: it.currentVersion, previous, negativeAvailable: values.negativeAvailable, negativeLocation: values.negativeLocation },
           requestId: locals.requestId,
         },
         transaction,
       );
-      result.decided.push({ id: it.id, lockVersion: it.lockVersion, decision: input.decision });
+      result.decided.push({ id: it.id, lockVersion: it.lockVersion, decision: values.decision });
+    }
+    return result;
+  });
+}
+
+/**
+ * Undoes a bulk decision: every print it decided goes back to the decision it had before (read
+ * from the audit trail), unless someone decided or adjusted it since; those are left as they are
+ * and reported. The undo is itself recorded, so the trail keeps both steps.
+ */
+export async function undoBulkDecision(locals: App.Locals, batchId: string, bulkId: string): Promise<BulkResult> {
+  const batch = await Batch.findByPk(batchId, { attributes: ['id', 'archiveId'] });
+  if (!batch) throw new NotFound('That batch');
+  requireArchiveRole(locals, batch.archiveId, 'editor', 'That batch');
+  const userId = locals.user!.id;
+  return db().transaction(async (transaction) => {
+    const events = await AuditEvent.findAll({
+      where: { archiveId: batch.archiveId, action: 'item.decide', subjectType: 'item', [Op.and]: [db().where(db().literal("details->>'bulkId'"), bulkId)] },
+      transaction,
+    });
+    if (events.length === 0) throw new NotFound('That bulk decision');
+    const undone = await AuditEvent.count({ where: { archiveId: batch.archiveId, action: 'item.decide.undo', [Op.and]: [db().where(db().literal("details->>'undoOf'"), bulkId)] }, transaction });
+    if (undone > 0) throw new Conflict('That bulk decision has been undone already.', 'already_undone');
+    const rows = await Item.findAll({ where: { id: events.map((e) => e.subjectId!), batchId }, transaction, lock: transaction.LOCK.UPDATE });
+    const byId = new Map(rows.map((r) => [r.id, r]));
+    const result: BulkResult = { bulkId, decided: [], conflicts: [] };
+    for (const e of events) {
+      const it = byId.get(e.subjectId!);
+      const d = e.details as { lockVersionAfter?: number; previous?: ReturnType<typeof decisionState> };
+      if (!it) {
+        result.conflicts.push({ id: e.subjectId!, code: 'not_found', message: 'This print is no longer in this batch.' });
+        continue;
+      }
+      if (it.lockVersion !== d.lockVersionAfter || !d.previous) {
+        const c = await staleConflict(it, transaction);
+        result.conflicts.push({ id: it.id, code: c.code, message: c.message });
+        continue;
+      }
+      const p = d.previous;
+      const before = decisionState(it);
+      await it.update(
+        {
+          decision: p.decision as Decision | null,
+          decidedBy: p.decidedBy,
+          decidedAt: p.decidedAt ? new Date(p.decidedAt) : null,
+          negativeAvailable: (p.negativeAvailable as Item['negativeAvailable']) ?? null,
+          negativeLocation: p.negativeLocation ?? null,
+          rescanNote: p.rescanNote ?? null,
+          lockVersion: it.lockVersion + 1,
+        },
+        { transaction },
+      );
+      await recordAudit(
+        { archiveId: it.archiveId, actorId: userId, action: 'item.decide.undo', subjectType: 'item', subjectId: it.id, details: { undoOf: bulkId, decision: p.decision, previous: before }, requestId: locals.requestId },
+        transaction,
+      );
+      result.decided.push({ id: it.id, lockVersion: it.lockVersion, decision: (p.decision as Decision | null) ?? null });
     }
     return result;
   });
@@ -382,6 +455,7 @@ export async function batchOverview(locals: App.Locals, batchId: string): Promis
       negativeLocation: it.negativeLocation ?? null,
       lockVersion: it.lockVersion,
       hasThumbnail: Boolean(it.thumbKey),
+      failureReason: it.state === 'failed' ? (it.failureReason ?? null) : null,
     });
   }
   return { batch, rows };

@@ -39,6 +39,8 @@ export interface BlobStore {
   exists(key: string): Promise<boolean>;
   /** Removes a derived file; refuses originals. */
   remove(key: string): Promise<void>;
+  /** Deletes an original scan: only the purge of prints removed 30 days before does (removal.ts). */
+  purgeOriginal(key: string): Promise<void>;
   list(prefix: string): Promise<string[]>;
   /** A local file path for libraries that want one (sharp, pg_dump); a remote store would download to a temp file. */
   localPath(key: string): Promise<string>;
@@ -240,6 +242,11 @@ export class LocalDiskStore implements BlobStore {
 
   async remove(key: string): Promise<void> {
     if (WRITE_ONCE_PREFIXES.some((p) => key.startsWith(p))) throw new StorageKeyRefused(key);
+    await fs.rm(this.abs(key), { force: true });
+  }
+
+  async purgeOriginal(key: string): Promise<void> {
+    if (!checkKey(key).startsWith('originals/')) throw new StorageKeyRefused(key);
     await fs.rm(this.abs(key), { force: true });
   }
 
