@@ -30,6 +30,8 @@ interface Entry {
   attempts: number;
   message?: string;
   itemId?: string;
+  /** The drop the file came in with: the server numbers one drop's prints by file name. */
+  uploadKey: string;
 }
 
 type Action =
@@ -60,6 +62,7 @@ function sendFile(url: string, entry: Entry, onProgress: (sent: number) => void)
     xhr.setRequestHeader('content-type', 'application/octet-stream');
     xhr.setRequestHeader('accept', 'application/json');
     xhr.setRequestHeader(FILE_NAME_HEADER, encodeURIComponent(entry.name));
+    xhr.setRequestHeader('x-upload-key', entry.uploadKey);
     xhr.upload.onprogress = (e) => onProgress(e.loaded);
     xhr.onload = () => {
       let body: any = null;
@@ -167,6 +170,8 @@ export default function BatchUpload({ batchId, batchName, limits, items: initial
   const onDrop = useCallback(
     (accepted: File[], refused: FileRejection[]) => {
       const fresh: Entry[] = [];
+      // getRandomValues works on a plain-http address too, where randomUUID is not offered
+      const uploadKey = Array.from(crypto.getRandomValues(new Uint8Array(12)), (b) => b.toString(16).padStart(2, '0')).join('');
       for (const file of [...accepted, ...refused.map((r) => r.file)]) {
         const name = pathOf(file);
         if (/(^|\/)\.[^/]*$/.test(name) || /(^|\/)(Thumbs\.db|desktop\.ini)$/i.test(name)) continue;
@@ -180,6 +185,7 @@ export default function BatchUpload({ batchId, batchName, limits, items: initial
           name,
           sent: 0,
           attempts: 0,
+          uploadKey,
           status: tooLarge ? 'rejected' : 'waiting',
           message: tooLarge ? `The file is ${mb(file.size)}; the limit is ${mb(limits.maxBytes)}.` : undefined,
         });

@@ -6,6 +6,7 @@
  * has stopped changing. The batch is made when it does not exist yet. Progress goes to stdout,
  * one line per file; refused files are reported with their reason and make the exit status 1.
  */
+import { randomUUID } from 'node:crypto';
 import { createReadStream } from 'node:fs';
 import { readdir, stat } from 'node:fs/promises';
 import { basename, join, relative, resolve } from 'node:path';
@@ -140,13 +141,15 @@ async function main(): Promise<number> {
   const target = batch;
   const tally = { added: 0, duplicate: 0, refused: 0 };
   const done = new Set<string>();
+  // one run is one upload: its prints are numbered by file name
+  const uploadKey = randomUUID();
 
   const ingestOne = async (path: string) => {
     if (done.has(path)) return;
     done.add(path);
     const name = relative(opts.folder, path).split('\\').join('/');
     try {
-      const r = await ingestScan({ archiveId: archive.id, batchId: target.id, userId: user.id, name, body: createReadStream(path) });
+      const r = await ingestScan({ archiveId: archive.id, batchId: target.id, userId: user.id, name, body: createReadStream(path), uploadKey });
       if (r.outcome === 'added') {
         tally.added++;
         console.log(`added      #${r.item.seq} ${name}`);

@@ -101,7 +101,7 @@ export async function selectionCounts(archiveId: string): Promise<{ sinceLast: n
   const sinceLast = (await resolveSelection(archiveId, { kind: 'since_last' })).length;
   const batches = await db().query<{ id: string; name: string; n: string }>(
     `SELECT b.id, b.name, count(i.id) FILTER (WHERE i.decision IN ('accepted', 'accepted_adjusted') AND i.render_key IS NOT NULL) AS n
-       FROM batches b LEFT JOIN items i ON i.batch_id = b.id WHERE b.archive_id = :archiveId GROUP BY b.id ORDER BY b.created_at DESC`,
+       FROM batches b LEFT JOIN items i ON i.batch_id = b.id AND i.deleted_at IS NULL WHERE b.archive_id = :archiveId AND b.deleted_at IS NULL GROUP BY b.id ORDER BY b.created_at DESC`,
     { replacements: { archiveId }, type: QueryTypes.SELECT },
   );
   return { sinceLast, lastExportAt: since ? since.toISOString() : null, batches: batches.map((b) => ({ id: b.id, name: b.name, accepted: Number(b.n) })) };
@@ -111,7 +111,7 @@ export async function selectionCounts(archiveId: string): Promise<{ sinceLast: n
 export async function exportablePrints(archiveId: string, limit = 500): Promise<{ id: string; batchName: string; seq: number; caption: string | null; dateEdtf: string | null; decision: string | null; thumbnailUrl: string }[]> {
   const rows = await db().query<Record<string, unknown>>(
     `SELECT i.id, b.name AS batch_name, i.seq, i.caption, i.date_edtf, i.decision FROM items i JOIN batches b ON b.id = i.batch_id
-      WHERE i.archive_id = :archiveId AND i.render_key IS NOT NULL
+      WHERE i.archive_id = :archiveId AND i.render_key IS NOT NULL AND i.deleted_at IS NULL
       ORDER BY (i.decision IN ('accepted', 'accepted_adjusted')) DESC NULLS LAST, b.created_at DESC, i.seq LIMIT :limit`,
     { replacements: { archiveId, limit }, type: QueryTypes.SELECT },
   );
@@ -288,7 +288,7 @@ export async function runExport(exportId: string): Promise<void> {
         const printOriginal = item.printOriginalId ? (originals.get(item.printOriginalId) ?? null) : null;
         const date = dateOf(item.dateEdtf);
         const folder = folderFor(date);
-        const nameBase = baseName(pattern, { date, caption: item.caption ?? null, seq: done, batch: batch?.name ?? null, originalName: item.originalName });
+        const nameBase = baseName(pattern, { date, caption: item.caption ?? null, seq: item.seq, batch: batch?.name ?? null, originalName: item.originalName });
         const photoPath = names.claim(`photos/${folder}`, nameBase, '.jpg');
         await bag.addPayload(photoPath, jpeg, { store: true });
         let originalPath = '';
@@ -302,7 +302,7 @@ export async function runExport(exportId: string): Promise<void> {
           }
         }
         records.push([
-          photoPath, originalPath, printPath, String(done), item.caption ?? '', item.dateEdtf ?? '', date?.words ?? '', item.place ?? '', (people.get(item.id) ?? []).join('; '),
+          photoPath, originalPath, printPath, String(item.seq), item.caption ?? '', item.dateEdtf ?? '', date?.words ?? '', item.place ?? '', (people.get(item.id) ?? []).join('; '),
           batch?.sourceKind ?? '', batch?.sourceLabel ?? '', item.envelope ?? '', item.backText ?? '', batch?.name ?? '', item.originalName, original?.sha256 ?? '', printOriginal?.sha256 ?? '',
           item.decision ?? '', item.id,
         ]);

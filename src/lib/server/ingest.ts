@@ -9,7 +9,7 @@ import { createHash, randomUUID } from 'node:crypto';
 import { open } from 'node:fs/promises';
 import type { Readable } from 'node:stream';
 import ExifReader from 'exifreader';
-import { QueryTypes, literal } from 'sequelize';
+import { QueryTypes, literal, type Transaction } from 'sequelize';
 import { Batch, Item, Original, db } from '../../../db/index.ts';
 import { probeWithHead, ScanRejected, type ScanProbe } from '../restoration/imaging.ts';
 import type { UploadLimits, UploadOutcome } from '../batches/schemas.ts';
@@ -34,6 +34,32 @@ export interface IngestInput {
   name: string;
   body: Readable | AsyncIterable<Uint8Array>;
   requestId?: string;
+  /**
+   * The upload this scan is part of (one drop of files, or one run of the command line). Scanners
+   * write files in feed order, so the prints of one upload are numbered by file name in natural
+   * order, whatever order their uploads finish in.
+   */
+  uploadKey?: string | null;
+}
+
+/** File names in natural order: "scan_2" before "scan_10", letter case aside. */
+const naturalOrder = new Intl.Collator('en', { numeric: true, sensitivity: 'base' });
+
+/**
+ * Gives the prints of one upload the numbers they hold between them again, in the natural order
+ * of their file names. Only that upload's numbers move: every other print keeps its own.
+ */
+async function numberByName(batchId: string, uploadKey: string, transaction: Transaction): Promise<void> {
+  const group = await Item.findAll({ where: { batchId, uploadKey }, attributes: ['id', 'seq', 'originalName', 'createdAt'], transaction });
+  if (group.length < 2) return;
+  const numbers = group.map((i) => i.seq).sort((a, b) => a - b);
+  const byName = [...group].sort((a, b) => naturalOrder.compare(a.originalName, b.originalName) || a.createdAt.getTime() - b.createdAt.getTime());
+  const moves = byName.map((it, k) => ({ id: it.id, seq: numbers[k] })).filter((m) => group.find((g) => g.id === m.id)!.seq !== m.seq);
+  if (moves.length === 0) return;
+  // the unique index on (batch, number) is checked row by row: park the moving prints on negative numbers first
+  const ids = moves.map((m) => m.id);
+  await db().query('UPDATE items SET seq = -seq WHERE id IN (:ids)', { replacements: { ids }, transaction });
+  for (const m of moves) await db().query('UPDATE items SET seq = :seq WHERE id = :id', { replacements: m, transaction });
 }
 
 const FORMAT_FILE = { jpeg: { mime: 'image/jpeg', ext: '.jpg' }, png: { mime: 'image/png', ext: '.png' }, tiff: { mime: 'image/tiff', ext: '.tif' } } as const;
@@ -215,7 +241,11 @@ export async function ingestScan(input: IngestInput): Promise<UploadOutcome> {
     });
     if (holder) return { kind: 'duplicate' as const, item: holder };
     const seq = ((await Item.max<number, Item>('seq', { where: { batchId: input.batchId }, transaction })) ?? 0) + 1;
-    const item = await Item.create({ archiveId: input.archiveId, batchId: input.batchId, originalId, seq, originalName: name }, { transaction });
+    const item = await Item.create({ archiveId: input.archiveId, batchId: input.batchId, originalId, seq, originalName: name, uploadKey: input.uploadKey ?? null }, { transaction });
+    if (input.uploadKey) {
+      await numberByName(input.batchId, input.uploadKey, transaction);
+      await item.reload({ transaction });
+    }
     await recordAudit(
       { archiveId: input.archiveId, actorId: input.userId, action: 'item.ingest', subjectType: 'item', subjectId: item.id, details: { name, sha256, bytes: original.bytes, batchId: input.batchId }, requestId: input.requestId },
       transaction,

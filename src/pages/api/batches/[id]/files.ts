@@ -7,6 +7,14 @@ import { apiRoute, errorResponse, json } from '../../../../lib/server/http.ts';
 import { ingestScan, uploadLimits } from '../../../../lib/server/ingest.ts';
 import { drainingBody } from '../../../../lib/server/request-body.ts';
 
+/** The upload (one drop of files) a scan belongs to, named by the client: its prints are numbered by file name. */
+function uploadKey(request: Request): string | null {
+  const raw = request.headers.get('x-upload-key');
+  if (raw === null) return null;
+  if (!/^[A-Za-z0-9-]{1,64}$/.test(raw)) throw new InvalidInput('The X-Upload-Key header names an upload with up to 64 letters, digits and dashes.', { 'x-upload-key': 'Not an upload key.' });
+  return raw;
+}
+
 function fileName(request: Request): string {
   const raw = request.headers.get(FILE_NAME_HEADER);
   if (!raw) throw new InvalidInput(`Name the file in the ${FILE_NAME_HEADER} header (URI-encoded).`, { [FILE_NAME_HEADER]: 'Required.' });
@@ -25,6 +33,7 @@ function fileName(request: Request): string {
 export const POST = apiRoute(async ({ locals, params, request }) => {
   const batch = await batchForCaller(locals, idParam(params.id, 'That batch'), 'editor');
   const name = fileName(request);
+  const group = uploadKey(request);
   const declared = Number(request.headers.get('content-length') ?? NaN);
   const limits = uploadLimits();
   if (Number.isFinite(declared) && declared > limits.maxBytes) throw new TooLarge(`The file is ${Math.round(declared / 1048576)} MB; the limit is ${Math.round(limits.maxBytes / 1048576)} MB.`);
@@ -32,7 +41,7 @@ export const POST = apiRoute(async ({ locals, params, request }) => {
   // A refusal part-way (full disk, over the limit) reads the rest away first, so the client hears it.
   const upload = drainingBody(request.body, limits.maxBytes);
   try {
-    const result = await ingestScan({ archiveId: batch.archiveId, batchId: batch.id, userId: locals.user!.id, name, body: upload.body, requestId: locals.requestId });
+    const result = await ingestScan({ archiveId: batch.archiveId, batchId: batch.id, userId: locals.user!.id, name, body: upload.body, requestId: locals.requestId, uploadKey: group });
     if (result.outcome === 'duplicate') return json(result, 200);
     return json(result, 201, { location: `/api/items/${result.item.id}` });
   } catch (err) {
