@@ -55,7 +55,7 @@ export async function feedRenders(): Promise<number> {
   }
   const wanted = await db().query<{ id: string; current_version: number }>(
     `SELECT id, current_version FROM items
-      WHERE state = 'ready' AND current_version IS NOT NULL AND (render_version IS NULL OR render_version < current_version)
+      WHERE state = 'ready' AND current_version IS NOT NULL AND (render_version IS NULL OR render_version < current_version) AND deleted_at IS NULL
         AND (render_queued_version IS NULL OR render_queued_version < current_version)
         ${state.busy ? 'AND updated_at < now() - make_interval(secs => :catchUp)' : ''}
       ORDER BY updated_at LIMIT :room`,

@@ -10,7 +10,20 @@ export default function TokenManager({ tokens: initial, appUrl }: { tokens: Toke
   const [name, setName] = useState('');
   const [fresh, setFresh] = useState<string | null>(null);
   const [error, setError] = useState<string | null>(null);
+  const [copied, setCopied] = useState<string | null>(null);
   const hydrated = useHydrated();
+
+  /** Copies the token; where the browser offers no clipboard (a plain-http address), selects it for Ctrl+C instead. */
+  async function copy(token: string) {
+    try {
+      await navigator.clipboard.writeText(token);
+      setCopied('Copied');
+    } catch {
+      const node = document.querySelector('[data-new-token]');
+      if (node) window.getSelection()?.selectAllChildren(node);
+      setCopied('Selected: press Ctrl+C');
+    }
+  }
 
   async function create(e: React.FormEvent) {
     e.preventDefault();
@@ -18,6 +31,7 @@ export default function TokenManager({ tokens: initial, appUrl }: { tokens: Toke
     try {
       const t = await api<Token & { token: string }>('/api/tokens', { body: { name } });
       setFresh(t.token);
+      setCopied(null);
       setTokens([{ ...t, createdAt: new Date().toISOString(), lastUsedAt: null, revokedAt: null }, ...tokens]);
       setName('');
     } catch (err) {
@@ -48,7 +62,10 @@ export default function TokenManager({ tokens: initial, appUrl }: { tokens: Toke
       {fresh && (
         <div className="notice-caution" role="status">
           <p className="font-medium">Copy this token now: it is not shown again.</p>
-          <code className="mt-2 block break-all rounded bg-white px-2 py-1 font-mono text-xs text-ink-900" data-new-token>{fresh}</code>
+          <div className="mt-2 flex items-start gap-2">
+            <code className="block flex-1 break-all rounded bg-white px-2 py-1 font-mono text-xs text-ink-900" data-new-token>{fresh}</code>
+            <button type="button" className="btn-quiet py-1 text-xs" onClick={() => void copy(fresh)} data-copy-token>{copied ?? 'Copy'}</button>
+          </div>
           <p className="mt-2 text-xs">Use it as <code>Authorization: Bearer …</code>, e.g. <code>curl -H "Authorization: Bearer $TOKEN" {appUrl}/api/me</code></p>
         </div>
       )}
