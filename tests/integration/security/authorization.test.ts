@@ -154,7 +154,7 @@ async function untilQuiet(timeoutMs = 120_000): Promise<void> {
   let stableSince = 0;
   while (Date.now() < deadline) {
     const [{ busy }] = await db().query<{ busy: string }>(
-      `SELECT (SELECT count(*) FROM items i JOIN batches b ON b.id = i.batch_id WHERE b.archive_id IN (:a, :b)
+      `SELECT (SELECT count(*) FROM items i JOIN batches b ON b.id = i.batch_id WHERE b.archive_id IN (:a, :b) AND i.deleted_at IS NULL
                  AND (i.state IN ('queued', 'analysing') OR (i.state = 'ready' AND i.current_version IS NOT NULL AND (i.render_version IS NULL OR i.render_version < i.current_version))))
             + (SELECT count(*) FROM exports WHERE archive_id IN (:a, :b) AND state IN ('queued', 'running')) AS busy`,
       { replacements: { a: r.a.id, b: r.b.id }, type: QueryTypes.SELECT },
@@ -266,6 +266,8 @@ describe('authorization of every API route', () => {
           if (spec!.background) await untilQuiet();
           continue;
         }
+        // A request made with a change of its own (undo's bulk decision) waits for the work that change started.
+        if (spec?.background && spec.request) await untilQuiet();
         const before = await fingerprint();
         const reply = await send(principal, method, url, request, Boolean(rule.stream));
         const changed = changedTables(before, await fingerprint());
