@@ -1,6 +1,6 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { BrowserContext } from 'playwright-core';
-import { closeDb } from '../../db/index.ts';
+import { closeDb, Item } from '../../db/index.ts';
 import { launchBrowser, signInPage, snap } from '../support/browser.ts';
 import { asToken, makeArchive, TEST_PASSWORD, type TestArchive } from '../support/fixtures.ts';
 import { BASE } from '../support/http.ts';
@@ -33,6 +33,11 @@ describe('the upload page', () => {
     await page.locator('[data-batch-progress][data-settled="true"]').waitFor({ timeout: 30_000 });
     await expect(page.locator('[data-batch-progress] [data-count="ready"] [data-value]').textContent()).resolves.toBe('5');
     await expect(page.locator('[data-upload-summary]').textContent()).resolves.toContain('5 uploaded');
+    // one drop is one upload: its prints are numbered by file name, whatever order they arrived in
+    const items = await Item.findAll({ where: { batchId }, order: [['seq', 'ASC']] });
+    expect(new Set(items.map((i) => i.uploadKey)).size).toBe(1);
+    expect(items[0].uploadKey).toBeTruthy();
+    expect(items.map((i) => i.originalName)).toEqual(scans.map((s) => s.name));
     await snap(page, 'upload-ready');
 
     // The same files again are recognised, and a text file is refused with its reason.
