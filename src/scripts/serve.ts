@@ -7,6 +7,7 @@ import path from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { pinClientAddress } from '../lib/server/client-address.ts';
 import { loadConfig } from '../lib/server/config.ts';
+import { lingerAfterRefusals } from '../lib/server/refused-body.ts';
 
 let trustedProxies: string[];
 try {
@@ -22,3 +23,4 @@ const outDir = process.env.DRAWERLIGHT_OUT_DIR ?? './dist/app';
 const entry = (await import(pathToFileURL(path.resolve(outDir, 'server/entry.mjs')).href)) as { startServer(): { server: { server: Server } } };
 const { server } = entry.startServer();
 server.server.prependListener('request', (req: IncomingMessage) => pinClientAddress(req, trustedProxies));
+lingerAfterRefusals(server.server);

@@ -147,21 +147,30 @@ async function fingerprint(): Promise<Map<string, string>> {
 
 const changedTables = (before: Map<string, string>, after: Map<string, string>) => [...before.keys()].filter((t) => before.get(t) !== after.get(t));
 
-/** Waits until the walk's archives have no analysis, render or export under way and their rows stay the same for a second. */
+/**
+ * Waits until nothing is under way for the walk's archives (no print waiting for analysis or a
+ * render, no export running, no queued job naming one of their batches or prints) and their rows
+ * stay the same for 1.5 s, so that a refused call is compared with a still picture.
+ */
 async function untilQuiet(timeoutMs = 120_000): Promise<void> {
   const deadline = Date.now() + timeoutMs;
   let last = '';
   let stableSince = 0;
   while (Date.now() < deadline) {
     const [{ busy }] = await db().query<{ busy: string }>(
-      `SELECT (SELECT count(*) FROM items i JOIN batches b ON b.id = i.batch_id WHERE b.archive_id IN (:a, :b) AND i.deleted_at IS NULL
+      `WITH ids AS (SELECT id::text AS id FROM batches WHERE archive_id IN (:a, :b)
+                    UNION ALL SELECT i.id::text FROM items i JOIN batches b ON b.id = i.batch_id WHERE b.archive_id IN (:a, :b)
+                    UNION ALL SELECT unnest(ARRAY[:a, :b]::text[]))
+       SELECT (SELECT count(*) FROM items i JOIN batches b ON b.id = i.batch_id WHERE b.archive_id IN (:a, :b) AND i.deleted_at IS NULL
                  AND (i.state IN ('queued', 'analysing') OR (i.state = 'ready' AND i.current_version IS NOT NULL AND (i.render_version IS NULL OR i.render_version < i.current_version))))
-            + (SELECT count(*) FROM exports WHERE archive_id IN (:a, :b) AND state IN ('queued', 'running')) AS busy`,
+            + (SELECT count(*) FROM exports WHERE archive_id IN (:a, :b) AND state IN ('queued', 'running'))
+            + (SELECT count(*) FROM pgboss.job j WHERE j.state IN ('created', 'retry', 'active') AND j.start_after < now() + interval '30 seconds'
+                 AND EXISTS (SELECT 1 FROM ids WHERE strpos(j.data::text, ids.id) > 0)) AS busy`,
       { replacements: { a: r.a.id, b: r.b.id }, type: QueryTypes.SELECT },
     );
     const now = JSON.stringify([...(await fingerprint())]);
     if (Number(busy) === 0 && now === last) {
-      if (Date.now() - stableSince >= 1000) return;
+      if (Date.now() - stableSince >= 1500) return;
     } else stableSince = Date.now();
     last = now;
     await new Promise((res) => setTimeout(res, 250));

@@ -6,7 +6,7 @@
  */
 import { createHash, randomBytes } from 'node:crypto';
 import fs from 'node:fs';
-import http from 'node:http';
+import net from 'node:net';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { closeDb } from '../../../db/index.ts';
@@ -34,38 +34,69 @@ function rssMb(pid: number): number {
 
 const MB = 1024 * 1024;
 
+/** The body of a raw HTTP/1.1 answer, undoing chunked transfer encoding. */
+function answerBody(head: string, rest: Buffer): string {
+  if (!/^transfer-encoding:\s*chunked/im.test(head)) return rest.toString('utf8');
+  const parts: Buffer[] = [];
+  let at = 0;
+  for (;;) {
+    const eol = rest.indexOf('\r\n', at);
+    const size = parseInt(rest.subarray(at, eol).toString(), 16);
+    if (!size) break;
+    parts.push(rest.subarray(eol + 2, eol + 2 + size));
+    at = eol + 2 + size + 2;
+  }
+  return Buffer.concat(parts).toString('utf8');
+}
+
 /**
- * Sends up to `totalBytes` of body in 64 KB chunks (with a Content-Length, or chunked when `declare`
- * is false), stopping as soon as the answer arrives; resolves with its status and how much was sent.
+ * Sends up to `totalBytes` of body in 64 KB chunks over a socket of its own (with a Content-Length,
+ * or chunked when `declare` is false), stopping as soon as the answer arrives, and reading the answer
+ * apart from the writing (the server closing its end makes our writes fail, never the read).
  */
-function sendOversized(url: string, opts: { totalBytes: number; declare: boolean; contentType: string; headers?: Record<string, string> }): Promise<{ status: number; body: string; sentMb: number }> {
+function sendOversized(url: string, opts: { totalBytes: number; declare: boolean; contentType: string }): Promise<{ status: number; body: string; sentMb: number }> {
   return new Promise((resolve, reject) => {
     const u = new URL(url);
-    const headers: Record<string, string | number> = { 'content-type': opts.contentType, origin: u.origin, accept: 'application/json', ...(opts.headers ?? {}) };
-    if (opts.declare) headers['content-length'] = opts.totalBytes;
-    const req = http.request({ host: u.hostname, port: u.port, path: u.pathname, method: 'POST', headers });
-    const chunk = Buffer.alloc(64 * 1024, 'a');
-    let sent = 0;
+    const socket = net.connect({ host: u.hostname, port: Number(u.port) });
+    const head = [
+      `POST ${u.pathname} HTTP/1.1`,
+      `Host: ${u.host}`,
+      `Content-Type: ${opts.contentType}`,
+      `Origin: ${u.origin}`,
+      'Accept: application/json',
+      opts.declare ? `Content-Length: ${opts.totalBytes}` : 'Transfer-Encoding: chunked',
+      'Connection: close',
+      '',
+      '',
+    ].join('\r\n');
+    const received: Buffer[] = [];
     let answered = false;
-    req.on('response', (res) => {
-      answered = true;
-      let body = '';
-      res.setEncoding('utf8');
-      res.on('data', (d) => (body += d));
-      res.on('end', () => resolve({ status: res.statusCode!, body, sentMb: sent / MB }));
+    let sent = 0;
+    socket.on('data', (d) => {
+      received.push(d);
+      answered ||= Buffer.concat(received).includes('\r\n\r\n');
     });
-    // The server closing the connection on us after its answer is expected; before one it is a failure.
-    req.on('error', (err) => {
-      if (!answered) reject(err);
+    socket.on('error', () => undefined);
+    socket.on('close', () => {
+      const all = Buffer.concat(received);
+      const split = all.indexOf('\r\n\r\n');
+      if (split < 0) return reject(new Error(`the connection closed without an answer after ${(sent / MB).toFixed(1)} MB`));
+      const headText = all.subarray(0, split).toString();
+      resolve({ status: Number(headText.split(' ')[1]), body: answerBody(headText, all.subarray(split + 4)), sentMb: sent / MB });
     });
+    const chunk = Buffer.alloc(64 * 1024, 'a');
+    const frame = opts.declare ? chunk : Buffer.concat([Buffer.from(`${chunk.length.toString(16)}\r\n`), chunk, Buffer.from('\r\n')]);
     const pump = () => {
-      while (!answered && sent < opts.totalBytes) {
+      while (!answered && !socket.destroyed && sent < opts.totalBytes) {
         sent += chunk.length;
-        if (!req.write(chunk)) return void req.once('drain', pump);
+        if (!socket.write(frame)) return void socket.once('drain', pump);
       }
-      if (!answered) req.end();
+      if (!answered && !socket.destroyed) socket.end(opts.declare ? Buffer.alloc(0) : '0\r\n\r\n');
     };
-    pump();
+    socket.once('connect', () => {
+      socket.write(head);
+      pump();
+    });
   });
 }
 
@@ -96,6 +127,7 @@ describe('request bodies over the limit', () => {
       );
     }
     const after = rssMb(pid);
+    console.log(`web server RSS: ${before.toFixed(0)} MB before, ${after.toFixed(0)} MB after 20 refused 200 MB bodies`);
     for (const r of replies) {
       expect(r.status).toBe(413);
       expect(JSON.parse(r.body).error.code).toBe('too_large');
