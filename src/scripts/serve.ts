@@ -2,7 +2,7 @@
  * `npm run serve`: the web server of a build, started only after the settings check out, so a
  * production start without its secrets refuses to run instead of failing on the first request.
  */
-import type { IncomingMessage, Server } from 'node:http';
+import type { IncomingMessage, Server, ServerResponse } from 'node:http';
 import path from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { pinClientAddress } from '../lib/server/client-address.ts';
@@ -22,5 +22,19 @@ process.env.ASTRO_NODE_AUTOSTART = 'disabled';
 const outDir = process.env.DRAWERLIGHT_OUT_DIR ?? './dist/app';
 const entry = (await import(pathToFileURL(path.resolve(outDir, 'server/entry.mjs')).href)) as { startServer(): { server: { server: Server } } };
 const { server } = entry.startServer();
-server.server.prependListener('request', (req: IncomingMessage) => pinClientAddress(req, trustedProxies));
+// The adapter answers an address that cannot be decoded with a plain-text 400 of its own; ours is
+// in the API's error shape. Its handler runs after the client address is pinned.
+const [astro] = server.server.listeners('request') as ((req: IncomingMessage, res: ServerResponse) => void)[];
+server.server.removeAllListeners('request');
+server.server.on('request', (req: IncomingMessage, res: ServerResponse) => {
+  pinClientAddress(req, trustedProxies);
+  try {
+    decodeURI(req.url ?? '/');
+  } catch {
+    const body = JSON.stringify({ error: { code: 'invalid_input', message: 'The address holds %-escapes that do not decode.' } });
+    res.writeHead(400, { 'content-type': 'application/json; charset=utf-8', 'x-content-type-options': 'nosniff', connection: 'close' }).end(body);
+    return;
+  }
+  astro(req, res);
+});
 lingerAfterRefusals(server.server);

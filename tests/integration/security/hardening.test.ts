@@ -80,6 +80,13 @@ describe('calls with an API token', () => {
     expect(rescan.status, await rescan.clone().text()).toBe(202);
   });
 
+  it('answers an address whose %-escapes do not decode with a 400 in the JSON error shape', async () => {
+    const r = await fetch(`${BASE}/api/items/%E0%A4%A/retry`, { method: 'POST', headers: { authorization: `Bearer ${a.editor.token}` } });
+    expect(r.status).toBe(400);
+    expect(r.headers.get('content-type')).toContain('application/json');
+    expect((await r.json()).error.code).toBe('invalid_input');
+  });
+
   it('still refuses a cookie session posting from another site, in the JSON error shape', async () => {
     const session = await asSession(b.editor);
     const r = await fetch(`${BASE}/api/batches`, {
