@@ -1,7 +1,7 @@
 /**
  * The batch-settled queue: runs when none of a batch's items waits for or is in analysis.
- * 1. Batch pooling (the engine's poolAnalyses): prints the engine is unsure of borrow the estimate
- *    of their siblings from the same box or drawer; where that changes the proposal, a 'pooled'
+ * 1. Batch pooling (the engine's poolAnalyses): each print's estimate is combined with its siblings'
+ *    from the same box or drawer, as far as its own is unsure; where that changes the proposal, a 'pooled'
  *    correction version is added (jobs/render.ts renders it, as it does every version without a render).
  * 2. Whoever created the batch gets one e-mail with the counts and a link (finished_notified_at).
  * Both wait until no scan has been added for BATCH_QUIET_SECONDS (the job puts itself off until then).
@@ -11,6 +11,7 @@ import type PgBoss from 'pg-boss';
 import { Op } from 'sequelize';
 import { Batch, Correction, Item, User, db } from '../db/index.ts';
 import { poolAnalyses, type Analysis } from '../src/lib/restoration/analysis.ts';
+import { sameCorrection } from '../src/lib/restoration/correction.ts';
 import { stateCounts } from '../src/lib/server/batches.ts';
 import { config } from '../src/lib/server/config.ts';
 import { linkMail, sendMail } from '../src/lib/server/mailer.ts';
@@ -22,8 +23,6 @@ function ownAnalysis(stored: Record<string, unknown>): Analysis {
   const { pooled: _pooled, pooledResult: _result, ...own } = stored as Record<string, unknown>;
   return own as unknown as Analysis;
 }
-
-const same = (a: unknown, b: unknown) => JSON.stringify(a) === JSON.stringify(b);
 
 async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
   let pooledCount = 0;
@@ -51,14 +50,16 @@ async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
       const latest = await Correction.findOne({ where: { itemId: item.id }, order: [['version', 'DESC']], transaction });
       if (latest && latest.origin !== 'proposed' && latest.origin !== 'pooled') continue;
       const params = { ...result.proposed };
-      if (latest && same(latest.params, params)) continue;
+      // compared as values: the stored JSONB comes back with its keys reordered, and a change under
+      // a thousandth of a gain or white point renders the same
+      if (latest && sameCorrection(latest.params, params)) continue;
       const version = (latest?.version ?? 0) + 1;
       await Correction.create({ itemId: item.id, version, params: params as unknown as Record<string, unknown>, origin: 'pooled', createdBy: null }, { transaction });
       await Item.update(
         {
           currentVersion: version,
           fadeGrade: result.fadeGrade,
-          analysis: { ...(own[n] as unknown as Record<string, unknown>), pooled: result.pooled, pooledResult: { fadeGrade: result.fadeGrade, confidence: result.confidence, dyes: result.dyes, proposed: result.proposed } },
+          analysis: { ...(own[n] as unknown as Record<string, unknown>), pooled: result.pooled, pooledResult: { fadeGrade: result.fadeGrade, confidence: result.confidence, expectedDeltaE00: result.expectedDeltaE00, dyes: result.dyes, proposed: result.proposed } },
         },
         { where: { id: item.id }, transaction },
       );
@@ -77,7 +78,7 @@ async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
           `All ${counts.total} scans of the batch "${batch.name}" have been processed: ${parts.join(', ')}.`,
           'Open the batch',
           url,
-          pooledCount ? `${pooledCount} uncertain prints borrowed the estimate of their siblings in this batch.` : '',
+          pooledCount ? `${pooledCount} prints had their proposal refined with what the other prints of this batch show (prints of one box usually aged alike).` : '',
         );
         // Sent while the row is locked and before the mark is committed: a failed send rolls back and the job retries.
         await sendMail(mail);

@@ -31,14 +31,17 @@ interface Props {
 type BulkDecision = Exclude<Decision, 'accepted_adjusted'> | 'undecided';
 const plural = (n: number, one: string, many = `${one}s`) => `${n} ${n === 1 ? one : many}`;
 
-type SortKey = 'seq' | 'grade' | 'paper' | 'loss' | 'decision';
+type SortKey = 'seq' | 'grade' | 'paper' | 'loss' | 'doubt' | 'decision';
 const SORTS: { key: SortKey; words: string }[] = [
   { key: 'seq', words: 'Scan order' },
   { key: 'grade', words: 'Most faded first' },
   { key: 'paper', words: 'Most yellowed paper first' },
   { key: 'loss', words: 'Most dye lost first' },
+  { key: 'doubt', words: 'Least certain first' },
   { key: 'decision', words: 'Not reviewed first' },
 ];
+/** Expected CIEDE2000 from which a print is marked as one the engine is unsure of (a difference easily seen side by side; our own choice). */
+const UNSURE_FROM = 5;
 const DYE_COLOURS = { cyan: '#3b8ea5', magenta: '#b0487a', yellow: '#c9a227' } as const;
 const gradeRank = (g: string | null) => (g ? FADE_GRADES.indexOf(g as FadeGradeName) : -1);
 
@@ -71,6 +74,7 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
       grade: (a, b) => gradeRank(b.fadeGrade) - gradeRank(a.fadeGrade) || a.seq - b.seq,
       paper: (a, b) => (b.paperBase?.deltaE00 ?? -1) - (a.paperBase?.deltaE00 ?? -1) || a.seq - b.seq,
       loss: (a, b) => (b.dyeLoss ?? -1) - (a.dyeLoss ?? -1) || a.seq - b.seq,
+      doubt: (a, b) => (b.expectedDeltaE00 ?? -1) - (a.expectedDeltaE00 ?? -1) || a.seq - b.seq,
       decision: (a, b) => Number(!!a.decision) - Number(!!b.decision) || a.seq - b.seq,
     };
     return list.sort(by[sort]);
@@ -337,6 +341,11 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
                 <td className="px-3 py-2">
                   {r.fadeGrade ? GRADE_WORDS[r.fadeGrade as FadeGradeName] ?? r.fadeGrade : '–'}
                   {r.rescanAdvised && <span className="block text-xs text-warn-700">negative would help</span>}
+                  {r.expectedDeltaE00 !== null && r.expectedDeltaE00 >= UNSURE_FROM && (
+                    <span className="block text-xs text-warn-700" data-unsure title={`The engine expects its proposal to be off by about ${r.expectedDeltaE00.toFixed(1)} ΔE00 here: check this print by eye.`}>
+                      engine unsure
+                    </span>
+                  )}
                 </td>
                 <td className="px-3 py-2">
                   {r.paperBase ? (

@@ -105,6 +105,8 @@ export default function ReviewWorkbench({ item: initial, queue: initialQueue, ca
   const position = queue.findIndex((q) => q.id === shown.id);
   const reviewed = queue.filter((q) => q.decision).length;
   const grade = shown.fadeGrade as FadeGradeName | null;
+  const pooledExpected = (shown.analysis as { pooledResult?: { expectedDeltaE00?: number } } | null)?.pooledResult?.expectedDeltaE00;
+  const expected = pooledExpected ?? shown.analysis?.expectedDeltaE00;
 
   return (
     <div className="space-y-4" data-review-workbench data-item-id={shown.id} data-lock-version={shown.lockVersion}>
@@ -113,6 +115,15 @@ export default function ReviewWorkbench({ item: initial, queue: initialQueue, ca
         <h1 className="text-xl">Print {shown.seq} <span className="font-normal text-ink-500">· {shown.originalName}</span></h1>
         {grade && <span className="rounded-full bg-paper-100 px-2.5 py-0.5 text-xs font-medium text-ink-700" data-grade={grade}>Fading: {GRADE_WORDS[grade] ?? grade}</span>}
         {shown.analysis?.rescanAdvised && <span className="rounded-full bg-warn-100 px-2.5 py-0.5 text-xs font-medium text-warn-700">Negative would help</span>}
+        {typeof expected === 'number' && (
+          <span
+            className={`rounded-full px-2.5 py-0.5 text-xs font-medium ${expected >= 5 ? 'bg-warn-100 text-warn-700' : 'bg-paper-100 text-ink-700'}`}
+            data-expected-error={expected}
+            title="How far the engine expects its proposal to be from the print as it was, from its own uncertainty (CIEDE2000)"
+          >
+            {expected >= 5 ? 'Engine unsure: check by eye' : 'Engine fairly sure'} (±{expected.toFixed(1)} ΔE00)
+          </span>
+        )}
         <span className="ml-auto text-sm text-ink-500">{position >= 0 ? `${position + 1} of ${queue.length}` : ''} · {reviewed} decided</span>
         <button type="button" className="btn-quiet py-1 text-xs" onClick={() => run('help')} aria-haspopup="dialog">Keys (?)</button>
       </div>

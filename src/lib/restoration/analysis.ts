@@ -1,19 +1,26 @@
 /**
  * Measures how one print has aged, from a reduced copy of its scan, and proposes a correction.
  *
- * The model is the one in correction.ts: per channel D' = k·D + s. Two facts of the trade make
- * k and s measurable without knowing the original scene:
- *  - the paper base (a white border, or failing that the cleanest highlight) was close to neutral
- *    when new, so its colour now is the stain s;
- *  - each dye layer reached a similar maximum density when new (about 2.0-2.5 on glossy paper,
- *    from memory), and the deepest shadows of a photograph are near neutral (common practice),
- *    so the density range left above the paper base in each channel, compared with the channel
- *    that kept most, is the fraction of that dye left: k.
- * Only relative fading is measured: the best-kept dye is taken as unfaded. That keeps an
- * unfaded print unfaded, at the price of leaving an even, all-dye loss of contrast alone.
+ * The correction (correction.ts) undoes, per channel, D' = k·D + s: a change of slope k of each dye
+ * layer's density and an offset s (stain, paper base, scanner). That is a first approximation of
+ * dark and light ageing (McCormick-Goodhart & Wilhelm 2003), and the estimate does not assume the
+ * scene: a rose, a lawn or a sunset is not read as fading because a rule says greys are grey.
+ * Instead the statistics of a scan (printFeatures) go to an ensemble fitted on real photographs
+ * aged by a simulator written apart from this code (print-model.ts, `npm run fit-priors`), which
+ * answers how the print has aged and how likely it is that it aged at all. Then:
+ *  - do no harm: the strength of the correction follows that probability, so a print that looks
+ *    like an unfaded photograph is left as it is;
+ *  - physics where it is measured: a found white border is the paper base, and its colour is the
+ *    stain (a border that is paper white means no stain); stain only ever yellows (blue density
+ *    rises most, red least);
+ *  - a batch knows more than a print: poolAnalyses combines prints that aged together, each moved
+ *    toward the batch as far as its own estimate is unsure;
+ *  - each print carries the error its correction is expected to have (expectedDeltaE00).
  */
-import { densityFromReflectance, reflectanceFromDensity, srgbDecode, srgbEncode, srgbToLab, deltaE2000, type Triplet } from './colour';
-import { CORRECTION_VERSION, LITTLE_ENDIAN, type Correction } from './correction';
+import { densityFromReflectance, deltaE2000, reflectanceFromDensity, srgbDecode, srgbEncode, srgbToLab, type Triplet } from './colour';
+import { CORRECTION_VERSION, LITTLE_ENDIAN, identityCorrection, type Correction } from './correction';
+import { estimateAgeing, expectedError, type FittedPriors, type ModelEstimate } from './print-model';
+import { PRIORS } from './priors';
 
 /** Pixels handed to the analysis: interleaved, sRGB-encoded, already oriented and reduced. */
 export interface ReducedPixels {
@@ -30,11 +37,25 @@ export type FadeGrade = 'none' | 'slight' | 'moderate' | 'severe';
 
 /** What one dye layer has kept and what stain its channel gained. */
 export interface DyeEstimate {
-  /** Share of the dye's density left, 0-100 %. */
+  /** Share of the dye's density left, 0-100 % (over 100 % when the scan is flatter than the print was). */
   remainingPercent: number;
-  /** Density added to this channel by stain (D = -log10 R). */
+  /** Density added to this channel by stain, above the least stained channel (D = -log10 R). */
   stainDensity: number;
   confidence: number;
+}
+
+/** The estimator's own figures for one print, kept so that a batch can combine them later. */
+export interface AgeingEstimate {
+  /** Retention k and offset s per channel (red, green, blue), before the strength is applied. */
+  k: Triplet;
+  s: Triplet;
+  /** Probability that the print has aged at all. */
+  aged: number;
+  /** Uncertainty of -ln k and of s (standard deviations). */
+  spreadK: number;
+  spreadS: number;
+  /** Stain measured on a found border, which the batch does not override. */
+  borderStain: boolean;
 }
 
 /** Everything the engine measured on one print, and the correction it proposes. */
@@ -51,9 +72,9 @@ export interface Analysis {
   };
   dyes: { cyan: DyeEstimate; magenta: DyeEstimate; yellow: DyeEstimate };
   fadeGrade: FadeGrade;
-  /** Largest dye loss measured, 0..1 (ISO 18909 expresses fading as this loss). */
+  /** Largest dye loss of the proposed correction, 0..1 (ISO 18909 expresses fading as this loss). */
   dyeLoss: number;
-  /** Largest stain density measured. */
+  /** Yellowing of the paper base: blue stain density above the red. */
   stain: number;
   /** The print looks like a black-and-white print (only its base needs neutralising). */
   monochrome: boolean;
@@ -62,7 +83,11 @@ export interface Analysis {
   proposed: Correction;
   /** 0..1: how far the estimate can be trusted on this print alone. */
   confidence: number;
-  /** Set when {@link poolAnalyses} replaced or blended this print's estimate with its siblings'. */
+  /** CIEDE2000 the proposed correction is expected to leave, from the estimate's own uncertainty. */
+  expectedDeltaE00: number;
+  /** The estimator's figures behind the proposal; absent in analyses made before it existed. */
+  estimate?: AgeingEstimate;
+  /** Set when {@link poolAnalyses} combined this print's estimate with its siblings'. */
   pooled?: { siblings: number; ownWeight: number };
   /** Where the border was found, as fractions of width/height cut from each side (0 = none). */
   border: { top: number; right: number; bottom: number; left: number };
@@ -70,10 +95,9 @@ export interface Analysis {
 
 /**
  * Grade thresholds, in one place.
- * - `none`: below what the engine can tell from scan noise and scene content (our own floor); a
- *   print under it is left exactly as it is.
+ * - `none`: below what the engine can tell from scan noise and scene content (our own floor).
  * - `slight`: dye losses under about 15-20 % are rarely noticed (a film maker's published
- *   print-life note, CHECKS.md), so 15 %.
+ *   print-life note), so 15 %.
  * - `moderate` -> `severe`: a 30 % loss from D = 1.0 is the illustrative end point of ISO 18909
  *   testing; the stain end point is about 0.10-0.15 rise in minimum density (from memory).
  * The loss is comparable with ISO 18909's: under D' = k·D + s the fractional loss 1 - k is the
@@ -94,19 +118,15 @@ export function gradeFade(dyeLoss: number, stain: number): FadeGrade {
   return 'severe';
 }
 
-/** Share of the highlight-ranked pixels taken as the paper base when there is no border. */
-const HIGHLIGHT_SHARE = 0.005;
-/** Percentiles of density that stand for each channel's deepest shadows. */
-const SHADOW_PERCENTILES = [0.98, 0.995];
-/** Below this density range above the paper base, a scene has too few shadows to judge fading. */
-const FULL_RANGE = 1.2;
 /** Limits on what the engine will propose; beyond them it is guessing. */
 const MIN_RETENTION = 0.3;
-const MAX_STAIN = 0.6;
-/** Confidence under which {@link poolAnalyses} blends a print with its siblings. */
-export const POOL_CONFIDENCE = 0.5;
-/** Confidence at or under which a pooled print takes its siblings' estimate outright. */
-const POOL_FLOOR = 0.2;
+const MAX_RETENTION = 1.2;
+const MIN_OFFSET = -0.2;
+const MAX_OFFSET = 0.6;
+/** Fresh paper's minimum density (about 0.1 from memory; a scanner calibrated to paper white reads less). */
+const FRESH_PAPER_DENSITY = 0.04;
+/** Densities of clipped blacks are unknown: features count them at this density. */
+const DENSITY_CAP = 2.5;
 
 const densityOf8 = (() => {
   const t = new Float64Array(256);
@@ -343,59 +363,6 @@ function findBorder(v: Uint8Array, ch: number, w: number, h: number): BorderFind
   return { paper, rect, uniformity, cut: { top: top / h, right: right / w, bottom: bottom / h, left: left / w } };
 }
 
-/** Histogram of summed three-channel density, every `s`-th pixel of `r` in each direction. */
-function summedDensityHistogram(v: Uint8Array, ch: number, w: number, x0: number, y0: number, x1: number, y1: number, s: number, scale: number, hist: Uint32Array): number {
-  const top = hist.length - 1;
-  let n = 0;
-  for (let y = y0; y < y1; y += s) {
-    let i = (y * w + x0) * ch;
-    for (let x = x0; x < x1; x += s, i += s * ch) {
-      hist[Math.min(top, Math.floor((densityOf8[v[i]] + densityOf8[v[i + 1]] + densityOf8[v[i + 2]]) * scale))]++;
-      n++;
-    }
-  }
-  return n;
-}
-
-/** Per-channel histograms of the sampled pixels whose summed-density bin is at most `cut`; returns their count. */
-function histogramsUpTo(v: Uint8Array, ch: number, w: number, x0: number, y0: number, x1: number, y1: number, s: number, scale: number, cut: number, h0: Uint32Array, h1: Uint32Array, h2: Uint32Array): number {
-  let count = 0;
-  for (let y = y0; y < y1; y += s) {
-    let i = (y * w + x0) * ch;
-    for (let x = x0; x < x1; x += s, i += s * ch) {
-      const b = Math.floor((densityOf8[v[i]] + densityOf8[v[i + 1]] + densityOf8[v[i + 2]]) * scale);
-      if (b <= cut) {
-        h0[v[i]]++;
-        h1[v[i + 1]]++;
-        h2[v[i + 2]]++;
-        count++;
-      }
-    }
-  }
-  return count;
-}
-
-/** Median colour of the cleanest highlights: the pixels of lowest total density. */
-function findHighlight(v: Uint8Array, ch: number, w: number, r: Rect): { paper: Triplet; count: number; spread: number } {
-  // every other pixel in each direction: highlights are regions, not single pixels
-  const s = r.x1 - r.x0 > 400 ? 2 : 1;
-  const bins = 1024;
-  const scale = bins / 9; // summed density of three channels is at most 9
-  const hist = new Uint32Array(bins);
-  const n = summedDensityHistogram(v, ch, w, r.x0, r.y0, r.x1, r.y1, s, scale, hist);
-  const want = Math.max(1, Math.round(n * HIGHLIGHT_SHARE));
-  let acc = 0;
-  let cut = 0;
-  while (cut < bins - 1 && acc + hist[cut] < want) acc += hist[cut++];
-  const hs = [new Uint32Array(256), new Uint32Array(256), new Uint32Array(256)];
-  const count = histogramsUpTo(v, ch, w, r.x0, r.y0, r.x1, r.y1, s, scale, cut, hs[0], hs[1], hs[2]);
-  const paper = [0, 1, 2].map((c) => percentileCode(hs[c], count, 0.5)) as Triplet;
-  const spread = Math.max(
-    ...[0, 1, 2].map((c) => densityOf8[percentileCode(hs[c], count, 0.1)] - densityOf8[percentileCode(hs[c], count, 0.9)]),
-  );
-  return { paper, count, spread };
-}
-
 function paperReport(codes: Triplet, method: PaperBaseMethod, confidence: number): Analysis['paperBase'] {
   const srgb = codes.map((c) => c / 255) as Triplet;
   const lab = srgbToLab(srgb);
@@ -419,365 +386,303 @@ function round(x: number, digits: number): number {
   return Math.round(x * f) / f;
 }
 
-interface Estimate {
-  retention: Triplet;
-  stain: Triplet;
-  paperFloor: number;
-}
+/** Fractions of the picture's pixels at which each channel's density is read (0 = lightest). */
+export const FEATURE_QUANTILES = [0.005, 0.02, 0.1, 0.25, 0.5, 0.75, 0.9, 0.98, 0.995] as const;
+/** Length of the vector printFeatures returns. */
+export const FEATURE_COUNT = 3 * FEATURE_QUANTILES.length + 6 + 4 + 4;
 
-/** Applies the "do no harm" floor, grades, and fills in the parts of an Analysis that follow from an estimate. */
-function finish(
-  est: Estimate,
-  paperBase: Analysis['paperBase'],
-  dyeConfidence: Triplet,
-  confidence: number,
-  monochrome: boolean,
-  border: Analysis['border'],
-): Analysis {
-  const t = FADE_GRADE_THRESHOLDS.none;
-  let retention = est.retention.map((k) => clamp(k, MIN_RETENTION, 1)) as Triplet;
-  let stain = est.stain.map((s) => clamp(s, 0, MAX_STAIN)) as Triplet;
-  let dyeLoss = 1 - Math.min(...retention);
-  let maxStain = Math.max(...stain);
-  // Do no harm: a change the engine cannot tell from noise is not made at all.
-  if (dyeLoss < t.dyeLoss) {
-    retention = [1, 1, 1];
-    dyeLoss = 0;
-  }
-  if (maxStain < t.stain) {
-    stain = [0, 0, 0];
-    maxStain = 0;
-  }
-  const fadeGrade = gradeFade(dyeLoss, maxStain);
-  const dye = (i: number): DyeEstimate => ({
-    remainingPercent: round(retention[i] * 100, 2),
-    stainDensity: round(stain[i], 4),
-    confidence: round(dyeConfidence[i], 3),
-  });
-  return {
-    paperBase,
-    dyes: { cyan: dye(0), magenta: dye(1), yellow: dye(2) },
-    fadeGrade,
-    dyeLoss: round(dyeLoss, 4),
-    stain: round(maxStain, 4),
-    monochrome,
-    rescanAdvised: fadeGrade === 'severe' && dyeLoss >= FADE_GRADE_THRESHOLDS.moderate.dyeLoss,
-    proposed: correctionFromEstimate(retention, stain, est.paperFloor),
-    confidence: round(confidence, 3),
-    border,
-  };
-}
+/** Pixels looked at, at most, for the colour statistics (every n-th pixel of a grid). */
+const COLOUR_SAMPLES = 16000;
 
-/** Tolerances, per pass, on how far from neutral a pixel may be after correction to count as a neutral. */
-const NEUTRAL_TOLERANCES = [0.25, 0.12, 0.06, 0.04];
-/** Neutrals lighter than this above the paper base carry too little dye to measure a ratio on. */
-const MIN_NEUTRAL_DENSITY = 0.15;
+const densityCapped = (code: number) => Math.min(densityOf8[code], DENSITY_CAP);
 
 /**
- * Densities above the paper base of the pixels on a grid of `step` that carry enough dye in every
- * channel to measure a ratio on, into dr/dg/db; returns how many.
+ * Densities of every `step`-th pixel of `r`, per channel, into dr/dg/db; returns how many.
+ * A small function of its own so that V8 optimises its loop as soon as it runs hot.
  */
-function collectNeutralCandidates(g: Grid, pr: number, pg: number, pb: number, dr: Float32Array, dg: Float32Array, db: Float32Array): number {
+function sampleDensities(g: Grid, dr: Float32Array, dg: Float32Array, db: Float32Array): number {
   const { v, ch, w, x0, y0, x1, y1, step } = g;
-  const least = MIN_NEUTRAL_DENSITY * 0.5;
   let m = 0;
   for (let y = y0; y < y1; y += step) {
     for (let x = x0; x < x1; x += step) {
       const i = (y * w + x) * ch;
-      // 8-bit codes below 3 are clipped shadows: their density is unknown
-      if (v[i] < 3 || v[i + 1] < 3 || v[i + 2] < 3) continue;
-      const a = densityOf8[v[i]] - pr;
-      const b = densityOf8[v[i + 1]] - pg;
-      const c = densityOf8[v[i + 2]] - pb;
-      if (a < least || b < least || c < least) continue;
-      dr[m] = a;
-      dg[m] = b;
-      db[m] = c;
+      dr[m] = densityCapped(v[i]);
+      dg[m] = densityCapped(v[i + 1]);
+      db[m] = densityCapped(v[i + 2]);
       m++;
     }
   }
   return m;
 }
 
-/**
- * One pass of {@link fitOnNeutrals}: the candidates that come out within `tol` of neutral under
- * the gains ir/ig/ib, binned by their red:green and blue:green density ratios (weighted by
- * density) and by depth. Returns how many; the deepest goes to depthOut[0].
- */
-function neutralPass(
-  dr: Float32Array,
-  dg: Float32Array,
-  db: Float32Array,
-  m: number,
-  ir: number,
-  ig: number,
-  ib: number,
-  tol: number,
-  rgHist: Float64Array,
-  bgHist: Float64Array,
-  depthHist: Uint32Array,
-  depthOut: Float64Array,
-): number {
-  let count = 0;
-  let depth = 0;
-  for (let j = 0; j < m; j++) {
-    const G = dg[j] * ig;
-    if (G < MIN_NEUTRAL_DENSITY) continue;
-    const lo = G * (1 - tol);
-    const hi = G * (1 + tol);
-    const R = dr[j] * ir;
-    const B = db[j] * ib;
-    if (R < lo || R > hi || B < lo || B > hi) continue;
-    const inv = RATIO_SCALE / dg[j];
-    // every value here is positive: adding a half and truncating rounds as Math.round does
-    const rg = (dr[j] * inv + 0.5) | 0;
-    const bg = (db[j] * inv + 0.5) | 0;
-    const dep = (G * 20 + 0.5) | 0;
-    rgHist[rg < RATIO_BINS ? rg : RATIO_BINS - 1] += G;
-    bgHist[bg < RATIO_BINS ? bg : RATIO_BINS - 1] += G;
-    depthHist[dep < 60 ? dep : 60]++;
-    count++;
-    if (G > depth) depth = G;
-  }
-  depthOut[0] = depth;
-  return count;
+function quantileSorted(sorted: Float32Array, p: number): number {
+  if (sorted.length === 0) return 0;
+  return sorted[Math.min(sorted.length - 1, Math.max(0, Math.round(p * (sorted.length - 1))))];
+}
+
+function median(values: number[]): number {
+  if (values.length === 0) return 0;
+  const s = values.slice().sort((a, b) => a - b);
+  return s[s.length >> 1];
+}
+
+/** A scan's statistics as the estimator reads them, with the border found on the way. */
+export interface PrintFeatures {
+  /** FEATURE_COUNT numbers: per-channel density quantiles, colour statistics, the border. */
+  features: number[];
+  border: BorderFind | null;
+  /** The spread of colour is that of a black-and-white print. */
+  monochrome: boolean;
 }
 
 /**
- * Refines dye retention on the pixels that come out near neutral: in those the three dyes were
- * in balance when new (common practice: greys and blacks of a scene are neutral), so the ratio of
- * their densities now is the ratio of retentions. Each pass tightens the tolerance around the
- * previous estimate; a scene with too few neutrals keeps the shadow estimate.
+ * Reads the statistics the estimator works from, on the picture inside a found border: each
+ * channel's density at FEATURE_QUANTILES; the 10th, 50th and 90th percentiles of the red-green and
+ * blue-green density differences; their medians in the lightest and the darkest 5 % of the
+ * picture; and whether a border was found, with its density per channel.
  */
-function fitOnNeutrals(
-  v: Uint8Array,
-  ch: number,
-  w: number,
-  r: Rect,
-  paperD: Triplet,
-  start: Triplet,
-): { retention: Triplet; share: number; depth: number; spread: number } | null {
-  const step = Math.max(1, Math.floor(Math.sqrt(((r.x1 - r.x0) * (r.y1 - r.y0)) / 40000)));
-  const cap = (Math.ceil((r.x1 - r.x0) / step) + 1) * (Math.ceil((r.y1 - r.y0) / step) + 1);
-  const dr = new Float32Array(cap);
-  const dg = new Float32Array(cap);
-  const db = new Float32Array(cap);
-  const m = collectNeutralCandidates({ v, ch, w, x0: r.x0, y0: r.y0, x1: r.x1, y1: r.y1, step }, paperD[0], paperD[1], paperD[2], dr, dg, db);
-  const total = r.x1 > r.x0 && r.y1 > r.y0 ? Math.ceil((r.x1 - r.x0) / step) * Math.ceil((r.y1 - r.y0) / step) : 0;
-  const rgHist = new Float64Array(RATIO_BINS);
-  const bgHist = new Float64Array(RATIO_BINS);
-  let k: Triplet = [...start];
-  const depthHist = new Uint32Array(61);
-  const passDepth = new Float64Array(1);
-  let last: { retention: Triplet; share: number; depth: number; spread: number } | null = null;
-  for (const tol of NEUTRAL_TOLERANCES) {
-    rgHist.fill(0);
-    bgHist.fill(0);
-    depthHist.fill(0);
-    const count = neutralPass(dr, dg, db, m, 1 / k[0], 1 / k[1], 1 / k[2], tol, rgHist, bgHist, depthHist, passDepth);
-    const depth = passDepth[0];
-    if (count < 30) break;
-    const kr = histogramMedian(rgHist) / RATIO_SCALE;
-    const kb = histogramMedian(bgHist) / RATIO_SCALE;
-    const top = Math.max(kr, 1, kb);
-    k = [kr / top, 1 / top, kb / top];
-    // a grey scale spans densities; one patch of a single colour that happens to look neutral does not
-    const at = (p: number) => {
-      let acc = 0;
-      for (let b = 0; b < depthHist.length; b++) if ((acc += depthHist[b]) >= p * count) return b / 20;
-      return 3;
-    };
-    last = { retention: k, share: count / Math.max(1, total), depth, spread: at(0.9) - at(0.1) };
-  }
-  return last;
-}
-
-/** Density ratios between channels are binned at 1/2000 up to 4. */
-const RATIO_SCALE = 2000;
-const RATIO_BINS = 4 * RATIO_SCALE + 1;
-
-function histogramMedian(h: Float64Array): number {
-  let total = 0;
-  for (let i = 0; i < h.length; i++) total += h[i];
-  let acc = 0;
-  for (let i = 0; i < h.length; i++) {
-    acc += h[i];
-    if (acc >= total / 2) return i;
-  }
-  return h.length - 1;
-}
-
-function sceneVariety(v: Uint8Array, ch: number, w: number, inner: Rect, paperD: Triplet, retention: Triplet): { variety: number; neutralShare: number } {
-  const step = Math.max(1, Math.floor(Math.sqrt(((inner.x1 - inner.x0) * (inner.y1 - inner.y0)) / 40000)));
-  const sums = new Float64Array(6);
-  const g = (k: number) => 1 / Math.max(k, MIN_RETENTION);
-  varietySums({ v, ch, w, x0: inner.x0, y0: inner.y0, x1: inner.x1, y1: inner.y1, step }, paperD[0], paperD[1], paperD[2], g(retention[0]), g(retention[1]), g(retention[2]), sums);
-  const [neutrals, sampled, sumA, sumB, sumAA, sumBB] = sums;
-  const n = Math.max(1, sampled);
-  const variety = Math.sqrt(Math.max(0, sumAA / n - (sumA / n) ** 2) + Math.max(0, sumBB / n - (sumB / n) ** 2));
-  return { variety, neutralShare: neutrals / n };
-}
-
-/**
- * Over a grid of `step`: how many pixels come out near neutral under the gains, how many were
- * looked at, and the sums and sums of squares of their red-green and blue-green density
- * differences, into `out` in that order.
- */
-function varietySums(g: Grid, pr: number, pg: number, pb: number, gr: number, gg: number, gb: number, out: Float64Array): void {
-  const { v, ch, w, x0, y0, x1, y1, step } = g;
-  let neutrals = 0;
-  let sampled = 0;
-  let sumA = 0;
-  let sumB = 0;
-  let sumAA = 0;
-  let sumBB = 0;
-  for (let y = y0; y < y1; y += step) {
-    for (let x = x0; x < x1; x += step) {
-      const i = (y * w + x) * ch;
-      const dr = (densityOf8[v[i]] - pr) * gr;
-      const dg = (densityOf8[v[i + 1]] - pg) * gg;
-      const db = (densityOf8[v[i + 2]] - pb) * gb;
-      const a = dr - dg;
-      const b = db - dg;
-      if (Math.abs(a) < 0.04 + 0.03 * dg && Math.abs(b) < 0.04 + 0.03 * dg) neutrals++;
-      sumA += a;
-      sumB += b;
-      sumAA += a * a;
-      sumBB += b * b;
-      sampled++;
-    }
-  }
-  out[0] = neutrals;
-  out[1] = sampled;
-  out[2] = sumA;
-  out[3] = sumB;
-  out[4] = sumAA;
-  out[5] = sumBB;
-}
-
-/** Measures paper base, dye retention, stain and grade of one print from a reduced copy of its scan. */
-export function analysePixels(reduced: ReducedPixels): Analysis {
+export function printFeatures(reduced: ReducedPixels): PrintFeatures {
   const { width: w, height: h } = reduced;
   if (reduced.channels < 3) throw new RangeError('analysePixels needs RGB pixels (expand greyscale first)');
   if (w < 1 || h < 1 || reduced.data.length < w * h * reduced.channels) throw new RangeError('pixel buffer smaller than width x height');
   const { v, ch } = to8(reduced);
-
   const border = w >= 32 && h >= 32 ? findBorder(v, ch, w, h) : null;
   const inner: Rect = border?.rect ?? { x0: 0, y0: 0, x1: w, y1: h };
-
-  let paperCodes: Triplet;
-  let method: PaperBaseMethod;
-  let paperConfidence: number;
-  if (border) {
-    paperCodes = border.paper;
-    method = 'border';
-    paperConfidence = clamp(0.6 + 0.4 * (border.uniformity - 0.9) / 0.1, 0, 1);
-  } else {
-    const hl = findHighlight(v, ch, w, inner);
-    paperCodes = hl.paper;
-    method = 'highlight';
-    const bright = Math.min(...paperCodes.map((c) => densityOf8[Math.round(c)]));
-    // a highlight that is dark, scattered or few in number is a poor stand-in for paper
-    paperConfidence = 0.6 * clamp(1 - hl.spread / 0.15, 0, 1) * clamp((0.35 - bright) / 0.25, 0, 1) * clamp(hl.count / 50, 0, 1);
-  }
-  let paperD = paperCodes.map((c) => densityFromReflectance(srgbDecode(c / 255))) as Triplet;
-  const paperFloor = Math.min(...paperD);
-  let stain = paperD.map((d) => d - paperFloor) as Triplet;
-  // Stain is a yellowing: it raises blue density most and red least. A highlight that is bluish or
-  // reddish instead is scene content (sky, a lamp), not paper: claim no stain, and measure the
-  // dyes from a neutral base rather than from that colour.
-  if (method === 'highlight' && (stain[2] < Math.max(stain[0], stain[1]) - 0.01 || stain[0] > stain[1] + 0.02)) {
-    stain = [0, 0, 0];
-    paperD = [paperFloor, paperFloor, paperFloor];
-    paperConfidence = Math.min(paperConfidence, 0.15);
-  }
-  if (paperConfidence < 0.1) method = method === 'border' ? method : 'not_found';
+  const features: number[] = [];
 
   const { h: hist, n } = histograms(v, ch, w, inner);
-  const ranges: Triplet[] = SHADOW_PERCENTILES.map(
-    (p) => [0, 1, 2].map((c) => Math.max(densityOf8[percentileCode(hist[c], n, 1 - p)] - paperD[c], 1e-3)) as Triplet,
-  );
-  const shadowRetentions = ranges.map((r) => {
-    const top = Math.max(...r);
-    return r.map((x) => x / top) as Triplet;
-  });
-  const firstGuess = [0, 1, 2].map((c) => shadowRetentions.reduce((a, r) => a + r[c], 0) / shadowRetentions.length) as Triplet;
-  const fullness = clamp(Math.max(...ranges[ranges.length - 1]) / FULL_RANGE, 0, 1);
+  for (let c = 0; c < 3; c++) for (const p of FEATURE_QUANTILES) features.push(densityCapped(percentileCode(hist[c], n, 1 - p)));
 
-  const fit = fitOnNeutrals(v, ch, w, inner, paperD, firstGuess);
-  const retention = fit?.retention ?? firstGuess;
-  // trust grows with the share of near-neutral pixels, how deep and how wide in density they
-  // reach, and shrinks when the neutrals tell a very different story from the shadows
-  const disagreement = fit ? Math.max(...fit.retention.map((k, c) => Math.abs(k - firstGuess[c]))) : 0;
-  const neutralTrust = fit
-    ? clamp(fit.share / 0.02, 0, 1) * clamp(fit.depth / 1.0, 0, 1) * clamp(fit.spread / 0.6, 0, 1) * clamp(1 - (disagreement - 0.1) / 0.2, 0.3, 1)
-    : 0;
-  const dyeConfidence = [0, 1, 2].map((c) => {
-    const fallback = fullness * clamp(1 - Math.abs(shadowRetentions[0][c] - shadowRetentions[1][c]) / 0.1, 0, 1) * 0.3;
-    return clamp(Math.max(neutralTrust * (0.6 + 0.4 * fullness), fallback), 0, 1);
-  }) as Triplet;
+  const area = (inner.x1 - inner.x0) * (inner.y1 - inner.y0);
+  const step = Math.max(1, Math.ceil(Math.sqrt(area / COLOUR_SAMPLES)));
+  const cap = (Math.ceil((inner.x1 - inner.x0) / step) + 1) * (Math.ceil((inner.y1 - inner.y0) / step) + 1);
+  const dr = new Float32Array(cap);
+  const dg = new Float32Array(cap);
+  const db = new Float32Array(cap);
+  const m = sampleDensities({ v, ch, w, ...inner, step }, dr, dg, db);
+  const rg = new Float32Array(m);
+  const bg = new Float32Array(m);
+  const sum = new Float32Array(m);
+  for (let i = 0; i < m; i++) {
+    rg[i] = dr[i] - dg[i];
+    bg[i] = db[i] - dg[i];
+    sum[i] = dr[i] + dg[i] + db[i];
+  }
+  const rgSorted = rg.slice().sort();
+  const bgSorted = bg.slice().sort();
+  for (const p of [0.1, 0.5, 0.9]) features.push(quantileSorted(rgSorted, p), quantileSorted(bgSorted, p));
+  const sumSorted = sum.slice().sort();
+  const light = quantileSorted(sumSorted, 0.05);
+  const dark = quantileSorted(sumSorted, 0.95);
+  const lightRg: number[] = [];
+  const lightBg: number[] = [];
+  const darkRg: number[] = [];
+  const darkBg: number[] = [];
+  for (let i = 0; i < m; i++) {
+    if (sum[i] <= light) {
+      lightRg.push(rg[i]);
+      lightBg.push(bg[i]);
+    } else if (sum[i] >= dark) {
+      darkRg.push(rg[i]);
+      darkBg.push(bg[i]);
+    }
+  }
+  features.push(median(lightRg), median(lightBg), median(darkRg), median(darkBg));
 
-  // colour variety: a scene of mostly one colour says little about the dyes
-  const { variety, neutralShare } = sceneVariety(v, ch, w, inner, paperD, retention);
-  const monochrome = neutralShare > 0.97;
-  const sceneFactor = monochrome ? 1 : clamp(neutralShare / 0.05, 0, 1) * clamp(variety / 0.1, 0, 1);
-  const meanDye = (dyeConfidence[0] + dyeConfidence[1] + dyeConfidence[2]) / 3;
-  const confidence = (0.4 * paperConfidence + 0.6 * meanDye) * (0.5 + 0.5 * sceneFactor);
+  if (border) features.push(1, ...border.paper.map((c) => densityCapped(Math.round(c))));
+  else features.push(0, 0, 0, 0);
 
-  return finish(
-    { retention, stain, paperFloor },
-    paperReport(paperCodes, method, paperConfidence),
-    dyeConfidence,
-    confidence,
-    monochrome,
-    border?.cut ?? { top: 0, right: 0, bottom: 0, left: 0 },
-  );
+  const spread = Math.max(quantileSorted(rgSorted, 0.9) - quantileSorted(rgSorted, 0.1), quantileSorted(bgSorted, 0.9) - quantileSorted(bgSorted, 0.1));
+  return { features, border, monochrome: spread < 0.04 };
 }
 
-function weightedMedian(values: number[], weights: number[]): number {
-  const idx = values.map((_, i) => i).sort((a, b) => values[a] - values[b]);
-  const total = weights.reduce((a, b) => a + b, 0);
-  let acc = 0;
-  for (const i of idx) {
-    acc += weights[i];
-    if (acc >= total / 2) return values[i];
+/** Strength of the correction for a probability of ageing: 0 up to `from`, 1 from `to`, smooth between. */
+export function strengthFor(aged: number, decision: FittedPriors['decision'] = PRIORS.decision): number {
+  const { from, to } = decision;
+  if (aged <= from) return 0;
+  if (aged >= to) return 1;
+  const x = (aged - from) / (to - from);
+  return x * x * (3 - 2 * x);
+}
+
+/** Stain only ever yellows: the offsets are made to rise from red to green to blue (pooling adjacent violators). */
+function yellowingOnly(s: Triplet): Triplet {
+  const out: Triplet = [...s];
+  if (out[0] > out[1]) out[0] = out[1] = (out[0] + out[1]) / 2;
+  if (out[1] > out[2]) {
+    out[1] = out[2] = (out[1] + out[2]) / 2;
+    if (out[0] > out[1]) out[0] = out[1] = out[2] = (out[0] + out[1] + out[2]) / 3;
   }
-  return values[idx[idx.length - 1]];
+  return out;
 }
 
 /**
- * Batch-aware estimates: prints of one pack or drawer usually share paper and ageing. Every print
- * whose own confidence is under `threshold` is blended toward the confidence-weighted median of
- * its siblings, in proportion to how little it can be trusted alone. Confident prints are returned
- * unchanged. The input is not modified.
+ * Builds the correction that undoes D' = k·D + s per channel at the given strength:
+ * D = (D' - s) / k. In the correction's terms (correction.ts) that is a density gain of 1/k, a
+ * white point at density s + Dt·k, brought to the reflectance 10^-Dt, where Dt is the least that
+ * keeps every white point a reflectance (a scan lighter than the print gets Dt > 0).
  */
-export function poolAnalyses(analyses: Analysis[], threshold = POOL_CONFIDENCE): Analysis[] {
-  if (analyses.length < 2) return analyses.slice();
-  const trusted = analyses.filter((a) => a.confidence >= threshold);
-  const donors = trusted.length > 0 ? trusted : analyses;
-  const weights = donors.map((a) => Math.max(a.confidence, 1e-3));
-  const dyeKeys = ['cyan', 'magenta', 'yellow'] as const;
-  const refRetention = dyeKeys.map((k) => weightedMedian(donors.map((a) => a.dyes[k].remainingPercent / 100), weights)) as Triplet;
-  const refStain = dyeKeys.map((k) => weightedMedian(donors.map((a) => a.dyes[k].stainDensity), weights)) as Triplet;
+export function correctionFromAgeing(k: Triplet, s: Triplet, strength = 1): Correction {
+  if (strength <= 0) return identityCorrection();
+  const dt = Math.max(0, ...s.map((sc, c) => -sc / k[c]));
+  const whitePoint = s.map((sc, c) => round(srgbEncode(reflectanceFromDensity(sc + dt * k[c])), 6)) as Triplet;
+  return {
+    version: CORRECTION_VERSION,
+    whitePoint,
+    curves: { red: { densityGain: round(1 / k[0], 5) }, green: { densityGain: round(1 / k[1], 5) }, blue: { densityGain: round(1 / k[2], 5) } },
+    whiteTarget: round(Math.max(0.05, reflectanceFromDensity(dt)), 6),
+    strength: round(Math.min(1, strength), 4),
+  };
+}
+
+/** Fills in an Analysis from an estimate: the proposal at the strength its evidence allows, the grade, the paper base. */
+function analysisFrom(
+  est: AgeingEstimate,
+  paperBase: Analysis['paperBase'] | null,
+  border: Analysis['border'],
+  monochrome: boolean,
+  decision: FittedPriors['decision'] = PRIORS.decision,
+): Analysis {
+  const t = strengthFor(est.aged, decision);
+  const proposed = correctionFromAgeing(est.k, est.s, t);
+  // what the proposal does, strength included
+  const kEff = est.k.map((k) => 1 / (1 + t * (1 / k - 1))) as Triplet;
+  const dyeLoss = Math.max(0, 1 - Math.min(...kEff));
+  const stainRel = est.s.map((s) => t * (s - Math.min(...est.s))) as Triplet;
+  const yellowing = Math.max(0, stainRel[2] - stainRel[0]);
+  const fadeGrade = gradeFade(dyeLoss, yellowing);
+  const expected = expectedError(est);
+  const confidence = clamp(1 - expected / 8, 0, 1);
+  const dyeConfidence = clamp(1 - est.spreadK / 0.15, 0, 1);
+  const dye = (i: number): DyeEstimate => ({
+    remainingPercent: round(kEff[i] * 100, 2),
+    stainDensity: round(stainRel[i], 4),
+    confidence: round(dyeConfidence, 3),
+  });
+  const paperDensity = est.s.map((s, c) => s + est.k[c] * FRESH_PAPER_DENSITY);
+  const paper = paperBase ?? paperReport(paperDensity.map((d) => srgbEncode(reflectanceFromDensity(d)) * 255) as Triplet, 'highlight', round(clamp(1 - est.spreadS / 0.1, 0, 1), 3));
+  return {
+    paperBase: paper,
+    dyes: { cyan: dye(0), magenta: dye(1), yellow: dye(2) },
+    fadeGrade,
+    dyeLoss: round(dyeLoss, 4),
+    stain: round(yellowing, 4),
+    monochrome,
+    rescanAdvised: fadeGrade === 'severe' && dyeLoss >= FADE_GRADE_THRESHOLDS.moderate.dyeLoss,
+    proposed,
+    confidence: round(confidence, 3),
+    expectedDeltaE00: round(expected, 2),
+    estimate: {
+      k: est.k.map((k) => round(k, 5)) as Triplet,
+      s: est.s.map((s) => round(s, 5)) as Triplet,
+      aged: round(est.aged, 4),
+      spreadK: round(est.spreadK, 5),
+      spreadS: round(est.spreadS, 5),
+      borderStain: est.borderStain,
+    },
+    border,
+  };
+}
+
+const NO_BORDER = { top: 0, right: 0, bottom: 0, left: 0 };
+
+/** Measures paper base, dye retention, stain and grade of one print from a reduced copy of its scan. */
+export function analysePixels(reduced: ReducedPixels): Analysis {
+  const read = printFeatures(reduced);
+  return analysisFromModel(estimateAgeing(read.features), read);
+}
+
+/**
+ * The analysis that follows from the ensemble's estimate and what the scan showed: limits, a
+ * black-and-white print's single image, the stain of a found border, yellowing only. (The fitting
+ * script calls it too, with other decision rules, so that it tunes exactly what runs.)
+ */
+export function analysisFromModel(estimate: ModelEstimate | null, read: PrintFeatures, decision: FittedPriors['decision'] = PRIORS.decision): Analysis {
+  const { border, monochrome } = read;
+  const model: ModelEstimate = estimate ?? { k: [1, 1, 1], s: [0, 0, 0], aged: 0, spreadK: 1, spreadS: 1 };
+  let k = model.k.map((x) => clamp(x, MIN_RETENTION, MAX_RETENTION)) as Triplet;
+  // a black-and-white image has one silver or dye image for all three channels: only its base is coloured
+  if (monochrome) k = [0, 0, 0].map(() => (k[0] + k[1] + k[2]) / 3) as Triplet;
+  let s = model.s.map((x) => clamp(x, MIN_OFFSET, MAX_OFFSET)) as Triplet;
+  let paperBase: Analysis['paperBase'] | null = null;
+  if (border) {
+    // the border is the paper base itself: its density now is the fresh paper's, faded by k, plus the stain
+    const borderDensity = border.paper.map((c) => densityFromReflectance(srgbDecodeCode(c)));
+    s = borderDensity.map((d, c) => clamp(d - k[c] * FRESH_PAPER_DENSITY, MIN_OFFSET, MAX_OFFSET)) as Triplet;
+    paperBase = paperReport(border.paper, 'border', round(clamp(0.6 + (0.4 * (border.uniformity - 0.9)) / 0.1, 0, 1), 3));
+  }
+  s = yellowingOnly(s);
+  return analysisFrom(
+    { k, s, aged: model.aged, spreadK: model.spreadK, spreadS: border ? Math.min(model.spreadS, 0.005) : model.spreadS, borderStain: !!border },
+    paperBase,
+    border?.cut ?? NO_BORDER,
+    monochrome,
+    decision,
+  );
+}
+
+const LINEAR_OF_CODE = Float64Array.from({ length: 256 }, (_, i) => reflectanceFromDensity(densityOf8[i]));
+/** Linear reflectance of a (possibly fractional) 8-bit code. */
+function srgbDecodeCode(code: number): number {
+  const lo = Math.max(0, Math.min(255, Math.floor(code)));
+  const hi = Math.min(255, lo + 1);
+  const f = code - lo;
+  return LINEAR_OF_CODE[lo] * (1 - f) + LINEAR_OF_CODE[hi] * f;
+}
+
+/**
+ * Batch-aware estimates: prints of one pack or drawer usually share paper, lab and storage, so
+ * they aged alike. Each print's -ln k and s are combined with those of its siblings (weighted by
+ * each estimate's certainty), allowing for the small differences between prints of one pack
+ * (PRIORS.packJitter): a print moves toward the batch as far as its own estimate is unsure. A
+ * stain measured on a print's own border stays its own. Analyses made before the estimator kept
+ * its figures are returned as they are. The input is not modified.
+ */
+export function poolAnalyses(analyses: Analysis[]): Analysis[] {
+  const withEstimate = analyses.filter((a) => a.estimate);
+  if (withEstimate.length < 2) return analyses.slice();
+  const jitter = PRIORS.packJitter;
+  const varK = (a: Analysis) => Math.max(a.estimate!.spreadK, 0.02) ** 2;
+  const varS = (a: Analysis) => (a.estimate!.borderStain ? 0.005 ** 2 : Math.max(a.estimate!.spreadS, 0.01) ** 2);
+  const total = (f: (a: Analysis) => number) => withEstimate.reduce((acc, a) => acc + f(a), 0);
+  const precisionK = total((a) => 1 / varK(a));
+  const precisionS = total((a) => 1 / varS(a));
+  const sumK = [0, 1, 2].map((c) => total((a) => -Math.log(a.estimate!.k[c]) / varK(a)));
+  const sumS = [0, 1, 2].map((c) => total((a) => a.estimate!.s[c] / varS(a)));
+  const agedMean = total((a) => a.estimate!.aged) / withEstimate.length;
   return analyses.map((a) => {
-    if (a.confidence >= threshold || (trusted.length === 0 && donors.length < 2)) return a;
-    // below POOL_FLOOR a print's own estimate counts for nothing; between it and the threshold, in proportion
-    const own = clamp((a.confidence - POOL_FLOOR) / (threshold - POOL_FLOOR), 0, 1);
-    const siblings = trusted.length > 0 ? trusted.length : donors.length - 1;
-    const retention = dyeKeys.map((k, i) => own * (a.dyes[k].remainingPercent / 100) + (1 - own) * refRetention[i]) as Triplet;
-    const stain = dyeKeys.map((k, i) => own * a.dyes[k].stainDensity + (1 - own) * refStain[i]) as Triplet;
-    const floor = Math.min(...a.paperBase.srgb.map((c) => densityFromReflectance(srgbDecode(c))));
-    const dyeConf = dyeKeys.map((k) => Math.max(a.dyes[k].confidence, threshold * (1 - own))) as Triplet;
-    const paperBase = a.paperBase.method === 'border' ? a.paperBase : { ...a.paperBase, method: 'pooled' as const };
-    const next = finish(
-      { retention, stain, paperFloor: floor },
-      paperBase,
-      dyeConf,
-      Math.max(a.confidence, threshold * (1 - own) + a.confidence * own),
-      a.monochrome,
+    const e = a.estimate;
+    if (!e) return a;
+    // the siblings' combined estimate, without this print's own part in it
+    const sibK = precisionK - 1 / varK(a);
+    const sibS = precisionS - 1 / varS(a);
+    const priorVarK = 1 / sibK + jitter.k ** 2;
+    const priorVarS = 1 / sibS + jitter.s ** 2;
+    const ownK = 1 / varK(a) / (1 / varK(a) + 1 / priorVarK);
+    const ownS = e.borderStain ? 1 : 1 / varS(a) / (1 / varS(a) + 1 / priorVarS);
+    const k = [0, 1, 2].map((c) => {
+      const sib = (sumK[c] + Math.log(e.k[c]) / varK(a)) / sibK;
+      return Math.exp(-(ownK * -Math.log(e.k[c]) + (1 - ownK) * sib));
+    }) as Triplet;
+    const s = [0, 1, 2].map((c) => {
+      const sib = (sumS[c] - e.s[c] / varS(a)) / sibS;
+      return ownS * e.s[c] + (1 - ownS) * sib;
+    }) as Triplet;
+    const next = analysisFrom(
+      {
+        k: a.monochrome ? ([0, 0, 0].map(() => (k[0] + k[1] + k[2]) / 3) as Triplet) : k,
+        s: yellowingOnly(s),
+        aged: 0.3 * e.aged + 0.7 * agedMean,
+        spreadK: Math.sqrt(1 / (1 / varK(a) + 1 / priorVarK)),
+        spreadS: e.borderStain ? e.spreadS : Math.sqrt(1 / (1 / varS(a) + 1 / priorVarS)),
+        borderStain: e.borderStain,
+      },
+      a.paperBase.method === 'border' ? a.paperBase : null,
       a.border,
+      a.monochrome,
     );
-    next.pooled = { siblings, ownWeight: round(own, 3) };
+    if (next.paperBase.method !== 'border') next.paperBase = { ...next.paperBase, method: 'pooled' };
+    next.pooled = { siblings: withEstimate.length - 1, ownWeight: round(ownK, 3) };
     return next;
   });
 }

@@ -34,6 +34,12 @@ export const correctionSchema = z
     curves: z.object({ red: channelCurve, green: channelCurve, blue: channelCurve }).strict(),
     /** Encoded sRGB (0..1) of the scan's floor (flare), mapped to black; absent = none. */
     blackPoint: triplet.optional(),
+    /**
+     * Linear reflectance (0..1) the white point is brought to in every channel. Absent: the white
+     * point's brightest channel, so that removing a stain never brightens the print (the meaning of
+     * every correction made before this field existed, which is why the version did not change).
+     */
+    whiteTarget: z.number().finite().min(0.05).max(1).optional(),
     /** 0 = leave the scan as it is, 1 = full correction; parameters blend toward identity. */
     strength: unit,
   })
@@ -62,7 +68,23 @@ export function isIdentity(c: Correction): boolean {
   const neutralWhite = w[0] === w[1] && w[1] === w[2];
   const flatCurves = CHANNELS.every((ch) => c.curves[ch].densityGain === 1);
   const noBlack = !c.blackPoint || c.blackPoint.every((v) => v === 0);
-  return neutralWhite && flatCurves && noBlack;
+  const sameWhite = c.whiteTarget === undefined || Math.abs(c.whiteTarget - srgbDecode(w[0])) < 1e-9;
+  return neutralWhite && flatCurves && noBlack && sameWhite;
+}
+
+/**
+ * Whether two corrections render alike: the same fields, and every number within `tolerance`
+ * (compared as values, whatever the order of the keys in the stored JSON).
+ */
+export function sameCorrection(a: unknown, b: unknown, tolerance = 1e-3): boolean {
+  if (typeof a === 'number' && typeof b === 'number') return Math.abs(a - b) <= tolerance;
+  if (Array.isArray(a) && Array.isArray(b)) return a.length === b.length && a.every((x, i) => sameCorrection(x, b[i], tolerance));
+  if (a && b && typeof a === 'object' && typeof b === 'object') {
+    const ka = Object.keys(a).filter((k) => (a as Record<string, unknown>)[k] !== undefined);
+    const kb = Object.keys(b).filter((k) => (b as Record<string, unknown>)[k] !== undefined);
+    return ka.length === kb.length && ka.every((k) => sameCorrection((a as Record<string, unknown>)[k], (b as Record<string, unknown>)[k], tolerance));
+  }
+  return a === b;
 }
 
 /** The per-channel parameters a correction resolves to after strength is applied. */
@@ -71,7 +93,7 @@ export interface EffectiveChannel {
   divisor: number;
   /** Power applied in linear light (= density gain). */
   gain: number;
-  /** Linear reflectance the paper base is mapped back to (its brightest channel), raised to the strength. */
+  /** Linear reflectance the paper base is mapped back to (whiteTarget, else its brightest channel), raised to the strength. */
   paper: number;
   /** Linear floor removed before the white point. */
   floor: number;
@@ -86,7 +108,7 @@ export interface EffectiveChannel {
 export function effectiveChannels(c: Correction): Record<ChannelName, EffectiveChannel> {
   const t = c.strength;
   const lin = c.whitePoint.map((v) => Math.max(srgbDecode(v), 1e-4)) as Triplet;
-  const top = Math.max(...lin);
+  const top = c.whiteTarget ?? Math.max(...lin);
   const out = {} as Record<ChannelName, EffectiveChannel>;
   CHANNELS.forEach((ch, i) => {
     const floor = c.blackPoint ? srgbDecode(c.blackPoint[i]) * t : 0;

@@ -624,7 +624,8 @@ export async function analyseAndRender(input: string | Buffer, options: AnalyseA
   const measured = small && Math.max(small.width, small.height) <= analysisSide ? small : samplePixels(small ?? full, analysisSide);
   const analysis = analysePixels(measured);
   const base = options.correction ?? analysis.proposed;
-  const correction = { ...base, strength: options.strength ?? base.strength };
+  // the option scales the proposal's own strength, which already follows the evidence of ageing
+  const correction = { ...base, strength: Math.round(base.strength * (options.strength ?? 1) * 1e4) / 1e4 };
   const render = await renderFromFull(full, correction, options, small);
   return { ...render, probe, analysis, correction };
 }

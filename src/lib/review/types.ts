@@ -52,6 +52,8 @@ export interface ItemRow {
   paperBase: { srgb: [number, number, number]; deltaE00: number } | null;
   dyes: { cyan: number; magenta: number; yellow: number } | null;
   dyeLoss: number | null;
+  /** CIEDE2000 the engine expects its proposal to leave on this print (its uncertainty); null before it gave one. */
+  expectedDeltaE00: number | null;
   rescanAdvised: boolean;
   decision: Decision | null;
   decidedByName: string | null;

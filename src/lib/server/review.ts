@@ -432,6 +432,13 @@ export async function cropImage(item: Item, q: CropQuery): Promise<{ body: Buffe
 }
 
 /** A batch and its prints as the batch review page shows them; another archive's batch is 404. */
+/** The engine's expected error for a print, after the batch's pooling when there was one. */
+function expectedOf(a: Analysis | null): number | null {
+  const pooled = (a as (Analysis & { pooledResult?: { expectedDeltaE00?: number } }) | null)?.pooledResult?.expectedDeltaE00;
+  const own = a?.expectedDeltaE00;
+  return typeof pooled === 'number' ? pooled : typeof own === 'number' ? own : null;
+}
+
 export async function batchOverview(locals: App.Locals, batchId: string): Promise<{ batch: Batch; rows: ItemRow[] }> {
   const batch = await Batch.findByPk(batchId);
   if (!batch) throw new NotFound('That batch');
@@ -449,6 +456,7 @@ export async function batchOverview(locals: App.Locals, batchId: string): Promis
       paperBase: a?.paperBase ? { srgb: a.paperBase.srgb, deltaE00: round(a.paperBase.deltaE00FromWhite, 2) } : null,
       dyes: a?.dyes ? { cyan: a.dyes.cyan.remainingPercent, magenta: a.dyes.magenta.remainingPercent, yellow: a.dyes.yellow.remainingPercent } : null,
       dyeLoss: typeof a?.dyeLoss === 'number' ? a.dyeLoss : null,
+      expectedDeltaE00: expectedOf(a),
       rescanAdvised: Boolean(a?.rescanAdvised),
       decision: it.decision ?? null,
       decidedByName: (await nameOf(it.decidedBy))?.name ?? null,

@@ -59,7 +59,10 @@ describe('the rescan list', () => {
     const page = await (await asSession(a.viewer)).get('/rescans', { accept: 'text/html' });
     expect(page.status).toBe(200);
     expect(page.text).toContain('Blue tin, attic');
-    expect(page.text).toContain('@media print');
+    // the print styles come with the page's own stylesheets (no inline styles under the content security policy)
+    const sheets = [...page.text.matchAll(/<link[^>]+rel="stylesheet"[^>]+href="([^"]+)"/g)].map((m) => m[1]);
+    const css = await Promise.all(sheets.map(async (href) => (await fetch(new URL(href, process.env.APP_URL)).then((r) => r.text()))));
+    expect(page.text + css.join('\n')).toContain('@media print');
   });
 });
 

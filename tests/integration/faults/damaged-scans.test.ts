@@ -54,7 +54,8 @@ describe('damaged scans', () => {
     // libjpeg's words for it are "premature end of data segment", which the decoder's message calls cut short.
     expect(corrupt.failureReason).toMatch(/^Damaged scan: rescan advised\. The image (data is damaged|is cut short)/);
     expect(short.state).toBe('failed');
-    expect(short.failureReason).toMatch(/^Damaged scan: rescan advised\. The image is cut short/);
+    // libjpeg reports a file cut short as a warning or as an error, depending on where the cut falls
+    expect(short.failureReason).toMatch(/^Damaged scan: rescan advised\. The image (data is damaged|is cut short)/);
     // The originals are kept as uploaded.
     for (const [i, id] of ids.entries()) {
       const res = await fetch(`${process.env.APP_URL}/api/items/${id}/original`, { headers: { authorization: `Bearer ${a.editor.token}` } });

