@@ -148,7 +148,7 @@ describe('metadata embedded in the exported JPEGs', () => {
     expect(tags.xmp.description.description).toBe('Großmutter Zoë am See (Łódź) — „Picknick“');
     expect(tags.xmp.subject.value.map((v: any) => v.description)).toEqual(['Zoë Hartigan', 'Ōta Hiro', 'Lough Arrow']);
     expect(tags.xmp.DateCreated.description).toBe('1981-07-15');
-    // EXIF DateTimeOriginal form "YYYY:MM:DD HH:MM:SS" (CHECKS.md), only for an exact day.
+    // EXIF DateTimeOriginal form "YYYY:MM:DD HH:MM:SS" (EXIF 2.3, tag 0x9003, CIPA DC-008), only for an exact day.
     expect(tags.exif.DateTimeOriginal.description).toBe('1981:07:15 00:00:00');
   });
 

@@ -17,7 +17,7 @@ import {
 import { readTsv } from './fixtures';
 
 describe('sRGB transfer function (IEC 61966-2-1:1999)', () => {
-  it('encodes 18 % grey to 0.4613561 (value in CHECKS.md)', () => {
+  it('encodes 18 % grey to 0.4613561 (IEC 61966-2-1:1999 transfer function)', () => {
     expect(srgbEncode(0.18)).toBeCloseTo(0.4613561, 7);
   });
 
@@ -67,7 +67,7 @@ describe('sRGB -> XYZ (IEC 61966-2-1, 4-decimal matrix)', () => {
 });
 
 describe('CIELAB (CIE 15:2004)', () => {
-  it('reproduces the worked example with a D50 white (colour-science docs, CHECKS.md)', () => {
+  it('reproduces the worked example with a D50 white (colour-science documentation's worked example, CIE 15:2004)', () => {
     // D50 white from its chromaticity x = 0.3457, y = 0.3585 (CIE 15:2004)
     const white = [0.3457 / 0.3585, 1, (1 - 0.3457 - 0.3585) / 0.3585];
     const lab = xyzToLab([0.07049534, 0.1008, 0.09558313], white);
@@ -76,7 +76,7 @@ describe('CIELAB (CIE 15:2004)', () => {
     expect(lab[2]).toBeCloseTo(-4.4174661, 3);
   });
 
-  it('gives L* = 49.4961 for Y = 0.18 (CHECKS.md)', () => {
+  it('gives L* = 49.4961 for Y = 0.18 (CIE 15:2004)', () => {
     expect(xyzToLab([0.18 * D65_WHITE[0], 0.18, 0.18 * D65_WHITE[2]])[0]).toBeCloseTo(49.4961, 4);
   });
 
@@ -139,13 +139,13 @@ describe('CIEDE2000 (Sharma, Wu & Dalal 2005, Table 1)', () => {
 });
 
 describe('reflection density (ISO 5)', () => {
-  it('gives D = 1.0 for reflectance 0.1, and D = 0.70 after a 30 % loss from 1.0 (CHECKS.md)', () => {
+  it('gives D = 1.0 for reflectance 0.1, and D = 0.70 after a 30 % loss from 1.0 (ISO 5 reflection density; ISO 18909 loss from D = 1.0)', () => {
     expect(densityFromReflectance(0.1)).toBeCloseTo(1, 12);
     expect(densityFromReflectance(reflectanceFromDensity(0.7 * 1.0))).toBeCloseTo(0.7, 12);
     expect(reflectanceFromDensity(0.7)).toBeCloseTo(0.19953, 5);
   });
 
-  it('reads the grey patches of the 24-patch chart at 0.040 ... 1.495 D (CHECKS.md, -log10 Y of the averages)', () => {
+  it('reads the grey patches of the 24-patch chart at 0.040 ... 1.495 D (the chart's published averages, tests/fixtures/chart24.tsv, -log10 Y)', () => {
     const expected = [0.04, 0.23, 0.444, 0.719, 1.049, 1.495];
     const greys = readTsv('chart24.tsv').slice(18);
     greys.forEach((row, i) => {

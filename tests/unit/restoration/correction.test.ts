@@ -10,7 +10,7 @@ import {
 import { correctionFromEstimate } from '../../../src/lib/restoration/analysis';
 import { srgbDecode, srgbEncode } from '../../../src/lib/restoration/colour';
 
-/** The ageing model of TRADE.md, written out here independently of the engine: D' = k·D + s. */
+/** The first-approximation ageing model of reflection density (ISO 5: D = -log10 R; slope change and offset per McCormick-Goodhart & Wilhelm 2003), written out here independently of the engine: D' = k·D + s. */
 function ageCode(code: number, k: number, s: number): number {
   const d = -Math.log10(Math.max(srgbDecode(code / 255), 1e-6));
   return Math.round(srgbEncode(Math.pow(10, -(k * d + s))) * 255);
@@ -51,7 +51,7 @@ describe('channel tables', () => {
     for (let i = 0; i < 256; i++) expect(luts.green[i]).toBe(i);
   });
 
-  it('undo the density model D\' = k·D + s to within one code value (TRADE.md model, aged independently above)', () => {
+  it('undo the density model D\' = k·D + s to within one code value (density model of ISO 5 reflection density, aged independently above)', () => {
     const k = [0.6, 1, 0.8];
     const s = [0, 0.05, 0.2];
     const paper = 0.04;
