@@ -1,7 +1,7 @@
 /**
  * Synthetic print scenes for the demo, tests and benchmarks: invented content (sky, foliage, a
  * skin-toned face, saturated patches, a grey step wedge, optionally a white border), aged with
- * the density model of TRADE.md and encoded by sharp as JPEG, PNG or TIFF at any size.
+ * a density model D' = k·D + s and encoded by sharp as JPEG, PNG or TIFF at any size.
  * Everything is deterministic for a given seed.
  *
  * @example
@@ -47,7 +47,7 @@ export interface Ageing {
 
 /**
  * Ageing models for the demo, each scaled by a severity 0..1 (1 = a badly aged print).
- * Invented for the demo, shaped by TRADE.md: in the dark cyan fades fastest and the base yellows
+ * Invented for the demo, shaped by conservation guides (common practice): in the dark cyan fades fastest and the base yellows
  * (stain mostly blue, up to about 0.2-0.3); in light magenta and yellow fade; black-and-white
  * prints only yellow. The best-kept dye still loses a little, as real prints do.
  */
@@ -67,7 +67,7 @@ export const AGEING_MODELS = {
   }),
 } as const;
 
-/** Density limits of the invented print: a fresh paper base and a glossy print's maximum (about 2.0-2.5, TRADE.md). */
+/** Density limits of the invented print: a fresh paper base and a glossy print's maximum (about 2.0-2.5, from memory). */
 const PAPER_DENSITY = 0.04;
 const MAX_DENSITY = 2.1;
 

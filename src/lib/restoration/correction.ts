@@ -2,7 +2,7 @@
  * The correction: what the engine proposes for one print and an operator may later change.
  * Rendering is a pure function of (original pixels, correction), so every result can be re-made.
  *
- * Model (TRADE.md): ageing acts on density per channel, D' = k·D + s. Undoing it is
+ * Model (a first approximation; McCormick-Goodhart & Wilhelm 2003 on dark and light fading of chromogenic dyes): ageing acts on density per channel, D' = k·D + s. Undoing it is
  *   D = (D' - s) / k
  * which in linear light is a division by the paper base (the white point, 10^-s) followed by a
  * power of 1/k. Because it is separable per channel, a 256- or 65536-entry table per channel

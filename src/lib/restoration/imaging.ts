@@ -320,7 +320,7 @@ export function meaningfulExif(exif: Buffer | undefined): sharp.Exif {
       if (!name || type !== 2 || count === 0 || count > 4096) continue;
       const start = count <= 4 ? e + 8 : base + u32(e + 8);
       if (start < 0 || start + count > exif.length) continue;
-      // libvips flattens non-ASCII and trims some punctuation: carry plain ASCII only (CHECKS.md)
+      // libvips flattens non-ASCII and trims some punctuation: carry plain ASCII only (seen with sharp 0.34 here)
       const text = exif.toString('latin1', start, start + count).replace(/\0+$/, '').trim();
       if (text && /^[\x20-\x7e]+$/.test(text)) (out[into] ??= {})[name] = text;
     }

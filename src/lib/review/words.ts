@@ -37,7 +37,7 @@ export const NEGATIVE_WORDS: Record<NegativeAvailability, string> = {
   unknown: 'Not sure',
 };
 
-/** The three dye layers and the scan channel each one governs (TRADE.md). */
+/** The three dye layers and the scan channel each one governs (chromogenic prints: cyan, magenta and yellow dyes govern red, green and blue). */
 export const DYE_LAYERS = [
   { dye: 'cyan', channel: 'red', label: 'Cyan layer' },
   { dye: 'magenta', channel: 'green', label: 'Magenta layer' },
