@@ -1,28 +1,17 @@
 /** The "Recently removed" list: removed batches and prints, each with the day it goes for good and a Restore button. */
 import { useState } from 'react';
 import { api, ApiError } from './api-client.ts';
-
-export interface RemovedEntryView {
-  kind: 'batch' | 'print';
-  id: string;
-  batchName: string;
-  batchId: string;
-  seq: number | null;
-  originalName: string | null;
-  prints: number;
-  removedAt: string;
-  purgeAfter: string;
-}
+import type { RemovedEntry } from '../lib/review/types.ts';
 
 const day = (iso: string) => new Date(iso).toLocaleDateString('en-GB', { day: 'numeric', month: 'long', year: 'numeric' });
 const plural = (n: number, one: string, many = `${one}s`) => `${n} ${n === 1 ? one : many}`;
 
-export default function RecentlyRemoved({ entries: initial, canRestore }: { entries: RemovedEntryView[]; canRestore: boolean }) {
+export default function RecentlyRemoved({ entries: initial, canRestore }: { entries: RemovedEntry[]; canRestore: boolean }) {
   const [entries, setEntries] = useState(initial);
   const [message, setMessage] = useState<{ kind: 'info' | 'error'; text: string; href?: string } | null>(null);
   const [busy, setBusy] = useState<string | null>(null);
 
-  async function restore(e: RemovedEntryView) {
+  async function restore(e: RemovedEntry) {
     setBusy(e.id);
     setMessage(null);
     try {

@@ -17,7 +17,7 @@ import { fileURLToPath } from 'node:url';
 import sharp from 'sharp';
 import { analysisFromModel, printFeatures, type PrintFeatures } from '../../src/lib/restoration/analysis';
 import { applyCorrection, buildChannelLuts } from '../../src/lib/restoration/correction';
-import { estimateAgeing, MODEL_OUTPUTS, type FittedPriors, type NetworkWeights } from '../../src/lib/restoration/print-model';
+import { estimateAgeing, type FittedPriors, type NetworkWeights } from '../../src/lib/restoration/print-model';
 import { ciede2000, labOf8 } from './metrics';
 import { train, type TrainingSet } from './mlp';
 import { loadPhoto, photosOf, type Photo } from './photos';
@@ -279,7 +279,6 @@ async function main(): Promise<void> {
   console.log(`pack_jitter: ${JSON.stringify(priors.packJitter)}`);
   console.log(`samples: ${samples.length}`);
   console.log(`fit_seconds: ${((Date.now() - started) / 1000).toFixed(0)}`);
-  void MODEL_OUTPUTS;
 }
 
 main().catch((err) => {

@@ -64,3 +64,16 @@ export interface ItemRow {
   failureReason: string | null;
 }
 
+/** A removed batch or print as "Recently removed" lists it. */
+export interface RemovedEntry {
+  kind: 'batch' | 'print';
+  id: string;
+  /** The batch's name, or the print's batch. */
+  batchName: string;
+  batchId: string;
+  seq: number | null;
+  originalName: string | null;
+  prints: number;
+  removedAt: string;
+  purgeAfter: string;
+}

@@ -4,6 +4,7 @@
  * original scans stay for {@link KEEP_REMOVED_DAYS} days, listed under "Recently removed", and only
  * the purge ({@link purgeRemoved}, run by jobs/purge-removed.ts) deletes rows and files after that.
  */
+import type { RemovedEntry } from '../review/types.ts';
 import { Op, QueryTypes } from 'sequelize';
 import { Batch, Item, db } from '../../../db/index.ts';
 import { recordAudit } from './audit.ts';
@@ -163,20 +164,6 @@ export async function restoreBatch(archiveId: string, batchId: string, actor: Ac
     await recordAudit({ archiveId, actorId: actor.userId, action: 'batch.restore', subjectType: 'batch', subjectId: batch.id, details: { name, prints }, requestId: actor.requestId }, transaction);
     return { id: batch.id, name, prints };
   });
-}
-
-/** A removed batch or print as "Recently removed" lists it. */
-export interface RemovedEntry {
-  kind: 'batch' | 'print';
-  id: string;
-  /** The batch's name, or the print's batch. */
-  batchName: string;
-  batchId: string;
-  seq: number | null;
-  originalName: string | null;
-  prints: number;
-  removedAt: string;
-  purgeAfter: string;
 }
 
 /** Batches removed, and prints removed on their own, that can still be restored; newest first. */

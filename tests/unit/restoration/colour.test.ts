@@ -67,7 +67,7 @@ describe('sRGB -> XYZ (IEC 61966-2-1, 4-decimal matrix)', () => {
 });
 
 describe('CIELAB (CIE 15:2004)', () => {
-  it('reproduces the worked example with a D50 white (colour-science documentation's worked example, CIE 15:2004)', () => {
+  it('reproduces the worked example with a D50 white (colour-science documentation worked example, CIE 15:2004)', () => {
     // D50 white from its chromaticity x = 0.3457, y = 0.3585 (CIE 15:2004)
     const white = [0.3457 / 0.3585, 1, (1 - 0.3457 - 0.3585) / 0.3585];
     const lab = xyzToLab([0.07049534, 0.1008, 0.09558313], white);
@@ -145,7 +145,7 @@ describe('reflection density (ISO 5)', () => {
     expect(reflectanceFromDensity(0.7)).toBeCloseTo(0.19953, 5);
   });
 
-  it('reads the grey patches of the 24-patch chart at 0.040 ... 1.495 D (the chart's published averages, tests/fixtures/chart24.tsv, -log10 Y)', () => {
+  it('reads the grey patches of the 24-patch chart at 0.040 ... 1.495 D (the published chart averages, tests/fixtures/chart24.tsv, -log10 Y)', () => {
     const expected = [0.04, 0.23, 0.444, 0.719, 1.049, 1.495];
     const greys = readTsv('chart24.tsv').slice(18);
     greys.forEach((row, i) => {
