@@ -25,6 +25,39 @@ const channelCurve = z
   })
   .strict();
 
+/**
+ * A tone curve of one channel: a few points (input, output) in encoded sRGB 0..1, inputs
+ * increasing and outputs never decreasing, joined by monotone cubic interpolation (Fritsch &
+ * Carlson 1980) so that no tone is ever inverted. Outside its first and last point it holds
+ * their outputs.
+ */
+const toneCurve = z
+  .array(z.tuple([unit, unit]))
+  .min(2)
+  .max(8)
+  .superRefine((pts, ctx) => {
+    for (let i = 1; i < pts.length; i++) {
+      if (!(pts[i][0] > pts[i - 1][0])) ctx.addIssue({ code: 'custom', path: [i, 0], message: 'The inputs of a curve\'s points must increase.' });
+      if (pts[i][1] < pts[i - 1][1]) ctx.addIssue({ code: 'custom', path: [i, 1], message: 'A curve may not go down: that would invert tones.' });
+    }
+  });
+
+/** A kept rectangle, in fractions (0..1) of the turned scan's width and height. */
+const cropSchema = z
+  .object({ x: unit, y: unit, width: z.number().finite().min(0.02).max(1), height: z.number().finite().min(0.02).max(1) })
+  .strict()
+  .refine((r) => r.x + r.width <= 1 + 1e-9 && r.y + r.height <= 1 + 1e-9, { message: 'The crop must stay inside the scan.' });
+
+/** Quarter turns and crop of the render; the original file is never changed. */
+const geometrySchema = z
+  .object({
+    /** Clockwise quarter turns, 0..3, applied first. */
+    quarterTurns: z.number().int().min(0).max(3),
+    /** What is kept of the turned scan; absent = all of it. */
+    crop: cropSchema.optional(),
+  })
+  .strict();
+
 /** zod schema of {@link Correction}; the web API validates operator edits with it. */
 export const correctionSchema = z
   .object({
@@ -42,6 +75,15 @@ export const correctionSchema = z
     whiteTarget: z.number().finite().min(0.05).max(1).optional(),
     /** 0 = leave the scan as it is, 1 = full correction; parameters blend toward identity. */
     strength: unit,
+    /**
+     * Overall contrast: one more multiplier on the density above the paper base, for all three
+     * dyes together (1 = unchanged; absent = 1, the meaning of every correction made before).
+     */
+    contrast: z.number().finite().min(0.5).max(2).optional(),
+    /** Tone curves per channel, applied after the density correction; an absent channel is straight. */
+    toneCurves: z.object({ red: toneCurve.optional(), green: toneCurve.optional(), blue: toneCurve.optional() }).strict().optional(),
+    /** Quarter turns and crop of the render (not blended by strength); absent = the scan as it lies. */
+    geometry: geometrySchema.optional(),
   })
   .strict();
 
@@ -61,9 +103,25 @@ export function identityCorrection(): Correction {
   };
 }
 
-/** True when rendering `c` would leave every pixel as it is. */
+/** The quarter turns and crop of a correction. */
+export type Geometry = z.infer<typeof geometrySchema>;
+/** A tone curve's points, (input, output) in encoded sRGB 0..1. */
+export type ToneCurvePoints = [number, number][];
+
+/** True when a tone curve maps every value to itself (absent, or every point on the diagonal). */
+function straightCurve(points: readonly (readonly [number, number])[] | undefined): boolean {
+  if (!points) return true;
+  return points.length >= 2 && points[0][0] === 0 && points.at(-1)![0] === 1 && points.every(([x, y]) => x === y);
+}
+
+/**
+ * True when the colour tables of `c` would leave every value as it is. Turns and crop are apart
+ * from this ({@link hasGeometry}): strength never blends them.
+ */
 export function isIdentity(c: Correction): boolean {
   if (c.strength === 0) return true;
+  if (c.contrast !== undefined && c.contrast !== 1) return false;
+  if (c.toneCurves && !CHANNELS.every((ch) => straightCurve(c.toneCurves![ch]))) return false;
   const w = c.whitePoint;
   const neutralWhite = w[0] === w[1] && w[1] === w[2];
   const flatCurves = CHANNELS.every((ch) => c.curves[ch].densityGain === 1);
@@ -85,6 +143,63 @@ export function sameCorrection(a: unknown, b: unknown, tolerance = 1e-3): boolea
     return ka.length === kb.length && ka.every((k) => sameCorrection((a as Record<string, unknown>)[k], (b as Record<string, unknown>)[k], tolerance));
   }
   return a === b;
+}
+
+/** True when the render is turned or cropped. */
+export function hasGeometry(c: Correction): boolean {
+  const g = c.geometry;
+  if (!g) return false;
+  const r = g.crop;
+  return g.quarterTurns !== 0 || (!!r && (r.x > 0 || r.y > 0 || r.width < 1 || r.height < 1));
+}
+
+/**
+ * A function through the points of a tone curve by monotone piecewise cubic Hermite
+ * interpolation (F. N. Fritsch & R. E. Carlson, "Monotone piecewise cubic interpolation",
+ * SIAM J. Numer. Anal. 17(2), 1980): secant slopes, averaged tangents, zero tangents at flat
+ * stretches, and tangents scaled back inside the circle of radius 3 so that monotone points give
+ * a monotone curve. Outside the first and last point it holds their outputs.
+ */
+export function monotoneCurve(points: readonly (readonly [number, number])[]): (x: number) => number {
+  const n = points.length;
+  const xs = points.map((p) => p[0]);
+  const ys = points.map((p) => p[1]);
+  if (n === 1) return () => ys[0];
+  const h: number[] = [];
+  const d: number[] = [];
+  for (let k = 0; k < n - 1; k++) {
+    h.push(xs[k + 1] - xs[k]);
+    d.push((ys[k + 1] - ys[k]) / h[k]);
+  }
+  const m: number[] = new Array(n);
+  m[0] = d[0];
+  m[n - 1] = d[n - 2];
+  for (let k = 1; k < n - 1; k++) m[k] = d[k - 1] * d[k] <= 0 ? 0 : (d[k - 1] + d[k]) / 2;
+  for (let k = 0; k < n - 1; k++) {
+    if (d[k] === 0) {
+      m[k] = 0;
+      m[k + 1] = 0;
+      continue;
+    }
+    const a = m[k] / d[k];
+    const b = m[k + 1] / d[k];
+    const r = a * a + b * b;
+    if (r > 9) {
+      const tau = 3 / Math.sqrt(r);
+      m[k] = tau * a * d[k];
+      m[k + 1] = tau * b * d[k];
+    }
+  }
+  return (x: number) => {
+    if (x <= xs[0]) return ys[0];
+    if (x >= xs[n - 1]) return ys[n - 1];
+    let k = 0;
+    while (k < n - 2 && x > xs[k + 1]) k++;
+    const t = (x - xs[k]) / h[k];
+    const t2 = t * t;
+    const t3 = t2 * t;
+    return (2 * t3 - 3 * t2 + 1) * ys[k] + (t3 - 2 * t2 + t) * h[k] * m[k] + (-2 * t3 + 3 * t2) * ys[k + 1] + (t3 - t2) * h[k] * m[k + 1];
+  };
 }
 
 /** The per-channel parameters a correction resolves to after strength is applied. */
@@ -110,11 +225,14 @@ export function effectiveChannels(c: Correction): Record<ChannelName, EffectiveC
   const lin = c.whitePoint.map((v) => Math.max(srgbDecode(v), 1e-4)) as Triplet;
   const top = c.whiteTarget ?? Math.max(...lin);
   const out = {} as Record<ChannelName, EffectiveChannel>;
+  // overall contrast multiplies every dye's density gain alike; absent or 1 leaves the gains exactly as before
+  const contrast = c.contrast !== undefined && c.contrast !== 1 ? 1 + t * (c.contrast - 1) : 1;
   CHANNELS.forEach((ch, i) => {
     const floor = c.blackPoint ? srgbDecode(c.blackPoint[i]) * t : 0;
+    const gain = 1 + t * (c.curves[ch].densityGain - 1);
     out[ch] = {
       divisor: Math.pow(lin[i], t),
-      gain: 1 + t * (c.curves[ch].densityGain - 1),
+      gain: contrast === 1 ? gain : gain * contrast,
       paper: Math.pow(top, t),
       floor: Math.min(floor, 0.5),
     };
@@ -148,15 +266,21 @@ export function buildChannelLuts(c: Correction, depth: 8 | 16, outDepth: 8 | 16 
   const params = effectiveChannels(c);
   const inMax = depth === 8 ? 255 : 65535;
   const outMax = outDepth === 8 ? 255 : 65535;
-  const make = (p: EffectiveChannel) => {
+  const t = c.strength;
+  const make = (ch: ChannelName) => {
+    const p = params[ch];
+    const points = c.toneCurves?.[ch];
+    // the tone curve acts on the corrected, encoded value and blends toward straight with strength
+    const curve = points && !straightCurve(points) && t > 0 ? monotoneCurve(points) : undefined;
     const lut = outDepth === 8 ? new Uint8Array(inMax + 1) : new Uint16Array(inMax + 1);
     for (let i = 0; i <= inMax; i++) {
-      const y = srgbEncode(correctLinear(srgbDecode(i / inMax), p));
+      let y = srgbEncode(correctLinear(srgbDecode(i / inMax), p));
+      if (curve) y += t * (curve(Math.min(Math.max(y, 0), 1)) - y);
       lut[i] = Math.round(Math.min(Math.max(y, 0), 1) * outMax);
     }
     return lut;
   };
-  return { inDepth: depth, outDepth, red: make(params.red), green: make(params.green), blue: make(params.blue) };
+  return { inDepth: depth, outDepth, red: make('red'), green: make('green'), blue: make('blue') };
 }
 
 /** Thrown when pixels and tables do not fit together. */
@@ -285,4 +409,66 @@ export function applyCorrection<T extends Uint8Array | Uint8ClampedArray | Uint1
     mapAny(data, channels, luts, dest);
   }
   return dest;
+}
+
+/** Where the turned and cropped render comes from, in pixels, for a scan of a given size. */
+export interface GeometryPlan {
+  /** Clockwise quarter turns. */
+  quarterTurns: 0 | 1 | 2 | 3;
+  /** Size of the turned scan. */
+  turnedWidth: number;
+  turnedHeight: number;
+  /** The kept rectangle, in pixels of the turned scan. */
+  left: number;
+  top: number;
+  width: number;
+  height: number;
+}
+
+/**
+ * Resolves a correction's turns and crop for a scan of `width` x `height` pixels. The crop is kept
+ * in fractions, so the preview (a reduced copy) and the full-size render cut at the same place
+ * of the print; each edge is rounded to the nearest pixel of the size at hand.
+ */
+export function geometryPlan(c: Pick<Correction, 'geometry'>, width: number, height: number): GeometryPlan {
+  const turns = (c.geometry?.quarterTurns ?? 0) as 0 | 1 | 2 | 3;
+  const turnedWidth = turns % 2 === 1 ? height : width;
+  const turnedHeight = turns % 2 === 1 ? width : height;
+  const r = c.geometry?.crop ?? { x: 0, y: 0, width: 1, height: 1 };
+  const left = Math.min(turnedWidth - 1, Math.max(0, Math.round(r.x * turnedWidth)));
+  const top = Math.min(turnedHeight - 1, Math.max(0, Math.round(r.y * turnedHeight)));
+  const right = Math.min(turnedWidth, Math.max(left + 1, Math.round((r.x + r.width) * turnedWidth)));
+  const bottom = Math.min(turnedHeight, Math.max(top + 1, Math.round((r.y + r.height) * turnedHeight)));
+  return { quarterTurns: turns, turnedWidth, turnedHeight, left, top, width: right - left, height: bottom - top };
+}
+
+/**
+ * Turns and crops interleaved pixels (any channel count) by a {@link geometryPlan}: a new buffer of
+ * the same type, pixels copied whole, so nothing is resampled and the browser and the server cut
+ * exactly alike. The source buffer is not changed.
+ */
+export function applyGeometry<T extends Uint8Array | Uint8ClampedArray | Uint16Array>(data: T, width: number, height: number, channels: number, plan: GeometryPlan): { data: T; width: number; height: number } {
+  if (data.length !== width * height * channels) throw new CorrectionInputError('pixel buffer length does not match its size');
+  const { quarterTurns: q, left, top, width: w, height: h } = plan;
+  const out = new (data.constructor as { new (n: number): T })(w * h * channels);
+  // source pixel of turned pixel (tx, ty): clockwise turns send source (sx, sy) to
+  // 1: (H-1-sy, sx), 2: (W-1-sx, H-1-sy), 3: (sy, W-1-sx)
+  let o = 0;
+  for (let oy = 0; oy < h; oy++) {
+    const ty = oy + top;
+    if (q === 0) {
+      const start = (ty * width + left) * channels;
+      out.set(data.subarray(start, start + w * channels) as never, o);
+      o += w * channels;
+      continue;
+    }
+    for (let ox = 0; ox < w; ox++) {
+      const tx = ox + left;
+      const sx = q === 1 ? ty : q === 2 ? width - 1 - tx : width - 1 - ty;
+      const sy = q === 1 ? height - 1 - tx : q === 2 ? height - 1 - ty : tx;
+      let s = (sy * width + sx) * channels;
+      for (let k = 0; k < channels; k++) out[o++] = data[s++];
+    }
+  }
+  return { data: out, width: w, height: h };
 }

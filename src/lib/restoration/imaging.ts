@@ -9,7 +9,7 @@ import { readFileSync } from 'node:fs';
 import { readFile, stat, open } from 'node:fs/promises';
 import sharp from 'sharp';
 import { analysePixels, samplePixels, type Analysis, type ReducedPixels } from './analysis';
-import { applyCorrection, buildChannelLuts, correctionSchema, isIdentity, type Correction } from './correction';
+import { applyCorrection, applyGeometry, buildChannelLuts, correctionSchema, geometryPlan, hasGeometry, isIdentity, type Correction } from './correction';
 import { ScanRejected } from './errors';
 
 export { ScanRejected } from './errors';
@@ -446,6 +446,12 @@ function patchExifResolution(buf: Buffer, tiff: number, end: number, dpi: number
   }
 }
 
+/** 8-bit pixels turned and cropped by the correction's geometry. */
+function withGeometry(p: ReducedPixels, c: Correction): ReducedPixels {
+  const g = applyGeometry(p.data as Uint8Array, p.width, p.height, p.channels, geometryPlan(c, p.width, p.height));
+  return { ...p, data: g.data, width: g.width, height: g.height };
+}
+
 function rawImage(p: ReducedPixels): sharp.Sharp {
   const bytes = Buffer.from(p.data.buffer, p.data.byteOffset, p.data.byteLength);
   const raw = { width: p.width, height: p.height, channels: p.channels as 3 | 4 };
@@ -489,11 +495,14 @@ async function previewSet(small: ReducedPixels, sizes: RenderOptions['previews']
  */
 async function smallCopies(reduced: ReducedPixels, c: Correction, sizes: RenderOptions['previews'], luts?: ReturnType<typeof buildChannelLuts>): Promise<{ original: PreviewSet; corrected: PreviewSet }> {
   const smallLuts = isIdentity(c) ? undefined : (luts ?? buildChannelLuts(c, 8, 8));
-  const correctedSmall: ReducedPixels = smallLuts ? { ...reduced, data: applyCorrection(reduced.data, reduced.channels, smallLuts) as Uint8Array, depth: 8 } : reduced;
+  const coloured: ReducedPixels = smallLuts ? { ...reduced, data: applyCorrection(reduced.data, reduced.channels, smallLuts) as Uint8Array, depth: 8 } : reduced;
+  const turned = hasGeometry(c);
+  const correctedSmall: ReducedPixels = turned ? withGeometry(coloured, c) : coloured;
+  const changed = Boolean(smallLuts) || turned;
   const wantOriginal = !sizes?.correctedOnly;
   // an unfaded print's corrected copies are the original's: then both of the original's are made
-  const originalSizes = sizes?.originalThumbnailOnly && smallLuts ? { thumbnail: sizes.thumbnail } : sizes;
-  const [original, correctedSet] = await Promise.all([wantOriginal || !smallLuts ? previewSet(reduced, originalSizes) : {}, smallLuts ? previewSet(correctedSmall, sizes) : undefined]);
+  const originalSizes = sizes?.originalThumbnailOnly && changed ? { thumbnail: sizes.thumbnail } : sizes;
+  const [original, correctedSet] = await Promise.all([wantOriginal || !changed ? previewSet(reduced, originalSizes) : {}, changed ? previewSet(correctedSmall, sizes) : undefined]);
   return { original: wantOriginal ? original : {}, corrected: correctedSet ?? original };
 }
 
@@ -523,7 +532,9 @@ async function renderFromFull(full: FullPixels, correction: Correction, options:
   // 8-bit pixels are corrected in place; 16-bit ones go to a new 8-bit buffer
   const inPlace = src.depth === 8 ? (src.data as Uint8Array) : undefined;
   const data = luts ? (applyCorrection(src.data, src.channels, luts, inPlace) as Uint8Array) : (src.data as Uint8Array);
-  const corrected: ReducedPixels = { data, width: src.width, height: src.height, channels: src.channels, depth: 8 };
+  const coloured: ReducedPixels = { data, width: src.width, height: src.height, channels: src.channels, depth: 8 };
+  // turns and crop after the colour, by the same pixel copy the browser's preview makes
+  const corrected = hasGeometry(c) ? withGeometry(coloured, c) : coloured;
   let out = rawImage(corrected);
   const exif = meaningfulExif(full.probe.exif);
   if (Object.keys(exif).length > 0) out = out.withExif(exif);
