@@ -287,7 +287,7 @@ export default function BatchUpload({ batchId, batchName, limits, items: initial
       {earlier.length > 0 && (
         <section aria-labelledby="earlier-heading" className="card">
           <h2 id="earlier-heading">Already in this batch ({earlier.length})</h2>
-          <ul className="mt-2 max-h-72 divide-y divide-paper-200 overflow-y-auto text-sm" data-earlier-list>
+          <ul className="mt-2 max-h-72 divide-y divide-paper-200 overflow-y-auto rounded text-sm focus:outline-none focus-visible:ring-2 focus-visible:ring-lamp-600" tabIndex={0} aria-labelledby="earlier-heading" data-earlier-list>
             {earlier.map((i) => (
               <li key={i.id} className="flex flex-wrap gap-x-3 py-1.5" data-item={i.originalName} data-state={i.state}>
                 <span className="w-12 text-ink-500 tabular-nums">#{i.seq}</span>

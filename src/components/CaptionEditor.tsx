@@ -254,7 +254,11 @@ export default function CaptionEditor({ batchId, items: initial, canEdit, pendin
                   <span className="block text-xs text-ink-500">Print {it.seq}{it.dateWords ? ` · ${it.dateWords}` : ''}</span>
                   <span className="block truncate text-sm">{it.caption || <em className="text-ink-500">no caption</em>}</span>
                 </span>
-                {canEdit && it.pendingSuggestions > 0 && <span className="ml-auto rounded-full bg-warn-100 px-2 text-xs text-warn-700" title="Suggestions waiting">{pending[it.id]?.length ?? it.pendingSuggestions}</span>}
+                {canEdit && it.pendingSuggestions > 0 && (
+                  <span className="ml-auto shrink-0 rounded-full bg-warn-100 px-2 text-xs text-warn-700" data-pending-badge>
+                    {(pending[it.id]?.length ?? it.pendingSuggestions) === 1 ? '1 suggestion to look at' : `${pending[it.id]?.length ?? it.pendingSuggestions} suggestions to look at`}
+                  </span>
+                )}
               </button>
             </li>
           ))}
