@@ -119,7 +119,7 @@ export default function ExportManager({ counts, prints, exports: initial }: Prop
           <label className="label" htmlFor="pattern">File names</label>
           <input id="pattern" className="field font-mono" value={pattern} onChange={(e) => setPattern(e.target.value)} aria-invalid={!patternCheck.success} aria-describedby="pattern-help" />
           <p id="pattern-help" className={`mt-1 text-xs ${patternCheck.success ? 'text-ink-500' : 'text-danger-700'}`}>
-            {patternCheck.success ? 'Fields: {date} {caption} {seq} {batch} {original}. Prints go in folders by year; undated ones in "undated".' : patternCheck.error.issues[0].message}
+            {patternCheck.success ? 'Fields: {date} {caption} {seq} {batch} {original}. Prints go in folders by year; undated ones in the years their batch is dated to, or in "undated".' : patternCheck.error.issues[0].message}
           </p>
         </div>
         {error && <p className="notice-error" role="alert">{error}</p>}

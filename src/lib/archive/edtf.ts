@@ -39,6 +39,12 @@ export interface PrintDate {
   folder: string;
   /** XMP photoshop:DateCreated ("1981", "1981-07", "1981-07-15"), or null when the date is a span or a decade. */
   xmpDate: string | null;
+  /**
+   * Where a span or a decade starts, at its precision ("1978", "1980", "1981-06"); null for a single
+   * date (see xmpDate) and for a span whose start is unknown. Photo programs know only one date
+   * field, so a span is written there as its start, the full EDTF beside it.
+   */
+  spanStart: string | null;
   /** EXIF DateTimeOriginal ("1981:07:15 00:00:00"), only for exact dates. */
   exifDate: string | null;
 }
@@ -142,6 +148,11 @@ function xmpDateOf(v: EdtfValue, kind: Kind): string | null {
   return `${year}-${month}-${pad(Number(v.values[2]))}`;
 }
 
+/** The first year, month or day a point allows: its own date, or a decade's first year. */
+function startOf(v: EdtfValue, kind: Kind): string {
+  return xmpDateOf(v, kind) ?? pad(yearOf(v, kind), 4);
+}
+
 function isExact(v: EdtfValue, kind: Kind): boolean {
   return kind === 'Date' && (v.precision ?? 0) === 3 && !bits(v.approximate, ~0) && !bits(v.uncertain, ~0) && !bits(v.unspecified, ~0);
 }
@@ -217,6 +228,7 @@ export function parsePrintDate(input: string): PrintDate {
       year: yearOf(first, fk),
       folder: folderOf(first, fk),
       xmpDate: sameYear ? pad(yearOf(lower!, lk), 4) : null,
+      spanStart: lower && !openStart ? startOf(lower, lk) : null,
       exifDate: null,
     };
   }
@@ -228,6 +240,7 @@ export function parsePrintDate(input: string): PrintDate {
     year: yearOf(v, kind),
     folder: folderOf(v, kind),
     xmpDate: xmpDateOf(v, kind),
+    spanStart: xmpDateOf(v, kind) ? null : startOf(v, kind),
     exifDate: exact ? `${pad(yearOf(v, kind), 4)}:${pad(Number(v.values[1]) + 1)}:${pad(Number(v.values[2]))} 00:00:00` : null,
   };
 }

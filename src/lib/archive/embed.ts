@@ -1,11 +1,15 @@
 /**
  * The metadata an exported JPEG carries, so any photo program shows the caption years from now:
- * XMP dc:description (caption), dc:subject (people and place), photoshop:DateCreated (partial
- * dates allowed), Iptc4xmpExt:PersonInImage, and EXIF DateTimeOriginal only for an exact day.
- * Text of every script goes in XMP (UTF-8); EXIF stays plain ASCII, because libvips flattens
- * non-ASCII and trims a trailing " (…)" from EXIF strings (seen with sharp 0.34 here).
+ * XMP dc:description (caption), dc:subject (people and place), photoshop:DateCreated (a year or a
+ * month allowed, as the Family History Metadata Working Group recommends; a span as its start),
+ * Iptc4xmpExt:PersonInImage, dc:source (where the print came from, plain text), the full EDTF in
+ * our own namespace; the same caption, keywords, place and date in IPTC IIM (UTF-8, iptc.ts) for
+ * programs that read only IIM; and EXIF DateTimeOriginal only for an exact day.
+ * EXIF stays plain ASCII, because libvips flattens non-ASCII and trims a trailing " (…)" from EXIF
+ * strings (seen with sharp 0.34 here).
  */
 import type { PrintDate } from './edtf.ts';
+import { iptcDate, type IptcFields } from './iptc.ts';
 
 export interface EmbeddedMetadata {
   caption: string | null;
@@ -46,16 +50,21 @@ const alt = (tag: string, value: string | null) =>
   value ? `<${tag}><rdf:Alt><rdf:li xml:lang="x-default">${xmlText(value)}</rdf:li></rdf:Alt></${tag}>` : '';
 const simple = (tag: string, value: string | null | undefined) => (value ? `<${tag}>${xmlText(value)}</${tag}>` : '');
 
+/** photoshop:DateCreated: the date at its own precision, or where its span starts. */
+export function dateCreated(date: PrintDate | null): string | null {
+  return date ? (date.xmpDate ?? date.spanStart) : null;
+}
+
 /** An XMP packet (UTF-8) with the print's caption, people, place and date. */
 export function buildXmp(m: EmbeddedMetadata): string {
   const subjects = [...m.people, ...(m.place ? [m.place] : [])];
   const body = [
     alt('dc:description', m.caption),
     bag('dc:subject', subjects),
-    simple('photoshop:DateCreated', m.date?.xmpDate ?? null),
+    simple('photoshop:DateCreated', dateCreated(m.date)),
     bag('Iptc4xmpExt:PersonInImage', m.people),
     simple('Iptc4xmpCore:Location', m.place),
-    alt('dc:source', m.source),
+    simple('dc:source', m.source),
     simple('drawerlight:DateEDTF', m.date?.edtf ?? null),
     simple('drawerlight:DateInWords', m.date?.words ?? null),
     simple('drawerlight:TextOnBack', m.backText),
@@ -86,4 +95,14 @@ export function buildExif(m: EmbeddedMetadata): { IFD0: Record<string, string>; 
   if (m.date?.exact && m.date.exifDate) IFD2.DateTimeOriginal = m.date.exifDate;
   if (m.scannedAt && /^\d{4}:\d{2}:\d{2} \d{2}:\d{2}:\d{2}$/.test(m.scannedAt)) IFD2.DateTimeDigitized = m.scannedAt;
   return Object.keys(IFD2).length ? { IFD0, IFD2 } : { IFD0 };
+}
+
+/** The IPTC IIM fields: the same caption, keywords (people, then place), place and date as the XMP. */
+export function buildIptcFields(m: EmbeddedMetadata): IptcFields {
+  return {
+    caption: m.caption,
+    keywords: [...m.people, ...(m.place ? [m.place] : [])],
+    subLocation: m.place,
+    dateCreated: iptcDate(dateCreated(m.date)),
+  };
 }

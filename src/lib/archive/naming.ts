@@ -62,9 +62,24 @@ export function dateForName(date: PrintDate | null): string {
   return date.folder;
 }
 
-/** The folder a print goes in: its (earliest) year, its decade, or the undated folder. */
-export function folderFor(date: PrintDate | null): string {
-  return date ? safeSegment(date.folder, UNDATED_FOLDER) : UNDATED_FOLDER;
+/**
+ * The folder of a batch's years, from the dates its source is known to span ("1978-1982",
+ * "1980s", "1981"); null when the batch has no dates.
+ */
+export function batchSpanFolder(from: PrintDate | null, to: PrintDate | null): string | null {
+  const a = from?.folder ?? null;
+  const b = to?.folder ?? null;
+  if (!a || !b || a === b) return a ?? b;
+  return `${a}-${b}`;
+}
+
+/**
+ * The folder a print goes in: its (earliest) year, its decade, or, for a print without a date,
+ * the years of its batch when those are known, else the undated folder.
+ */
+export function folderFor(date: PrintDate | null, batchFolder: string | null = null): string {
+  if (date) return safeSegment(date.folder, UNDATED_FOLDER);
+  return batchFolder ? safeSegment(batchFolder, UNDATED_FOLDER) : UNDATED_FOLDER;
 }
 
 export interface NameInput {

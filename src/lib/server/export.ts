@@ -13,8 +13,10 @@ import type { ExportRequest, ExportSelection, ExportStatus } from '../archive/ex
 import { checkBag, describeBagReport } from '../archive/bagit.ts';
 import { spreadsheetCsv } from '../archive/csv.ts';
 import { parsePrintDate, type PrintDate } from '../archive/edtf.ts';
-import { buildExif, buildXmp, type EmbeddedMetadata } from '../archive/embed.ts';
-import { DEFAULT_NAME_PATTERN, NameBook, baseName, folderFor } from '../archive/naming.ts';
+import { buildExif, buildIptcFields, buildXmp, type EmbeddedMetadata } from '../archive/embed.ts';
+import { withIptc } from '../archive/iptc.ts';
+import { DEFAULT_NAME_PATTERN, NameBook, baseName, batchSpanFolder, folderFor } from '../archive/naming.ts';
+import { sourceInWords } from '../archive/source.ts';
 import { requireArchiveRole, requireCurrentArchive, requireUser } from './access.ts';
 import { recordAudit } from './audit.ts';
 import { ZipBagWriter, zipBagSource } from './bag-files.ts';
@@ -199,12 +201,14 @@ const EXT = { 'image/jpeg': '.jpg', 'image/png': '.png', 'image/tiff': '.tif' } 
 
 /** One corrected JPEG with the metadata embedded (re-encoded once by sharp at high quality). */
 async function embeddedJpeg(renderPath: string, meta: EmbeddedMetadata): Promise<Buffer> {
-  return sharp(renderPath)
+  const jpeg = await sharp(renderPath)
     .withIccProfile('srgb')
     .withExif(buildExif(meta))
     .withXmp(buildXmp(meta))
     .jpeg({ quality: 95, chromaSubsampling: '4:2:0' })
     .toBuffer();
+  // sharp writes no IPTC; the IIM block goes in beside the segments it wrote
+  return withIptc(jpeg, buildIptcFields(meta));
 }
 
 /**
@@ -263,8 +267,8 @@ export async function runExport(exportId: string): Promise<void> {
       const originals = new Map((await Original.findAll({ where: { id: originalIds } })).map((o) => [o.id, o]));
       const metaOf = (item: Item): EmbeddedMetadata => {
         const batch = batches.get(item.batchId);
-        const source = [batch ? `${batch.sourceKind}${batch.sourceLabel ? ` ${batch.sourceLabel}` : ''}` : '', item.envelope ?? ''].filter(Boolean).join(', ');
-        return { caption: item.caption ?? null, date: dateOf(item.dateEdtf), place: item.place ?? null, people: people.get(item.id) ?? [], source: source || null, backText: item.backText ?? null, scannedAt: scanDateOf(originals.get(item.originalId) ?? null) };
+        const source = sourceInWords(batch?.sourceKind, batch?.sourceLabel, item.envelope);
+        return { caption: item.caption ?? null, date: dateOf(item.dateEdtf), place: item.place ?? null, people: people.get(item.id) ?? [], source, backText: item.backText ?? null, scannedAt: scanDateOf(originals.get(item.originalId) ?? null) };
       };
       const encode = (id: string | undefined): Promise<Buffer | null> => {
         const it = id ? byId.get(id) : undefined;
@@ -287,7 +291,7 @@ export async function runExport(exportId: string): Promise<void> {
         const original = originals.get(item.originalId) ?? null;
         const printOriginal = item.printOriginalId ? (originals.get(item.printOriginalId) ?? null) : null;
         const date = dateOf(item.dateEdtf);
-        const folder = folderFor(date);
+        const folder = folderFor(date, batch ? batchSpanFolder(dateOf(batch.dateFrom), dateOf(batch.dateTo)) : null);
         const nameBase = baseName(pattern, { date, caption: item.caption ?? null, seq: item.seq, batch: batch?.name ?? null, originalName: item.originalName });
         const photoPath = names.claim(`photos/${folder}`, nameBase, '.jpg');
         await bag.addPayload(photoPath, jpeg, { store: true });

@@ -152,12 +152,12 @@ describe('metadata embedded in the exported JPEGs', () => {
     expect(tags.exif.DateTimeOriginal.description).toBe('1981:07:15 00:00:00');
   });
 
-  it('writes no EXIF DateTimeOriginal and no photoshop:DateCreated for "the 1980s"', () => {
+  it('writes no EXIF DateTimeOriginal for "the 1980s", and its start year as photoshop:DateCreated', () => {
     const key = [...files.keys()].find((k) => k.includes('/photos/1980s/'))!;
     const tags = ExifReader.load(files.get(key)!, { expanded: true }) as any;
     expect(tags.xmp.description.description).toBe('The new car');
     expect(tags.exif?.DateTimeOriginal).toBeUndefined();
-    expect(tags.xmp.DateCreated).toBeUndefined();
+    expect(tags.xmp.DateCreated.description).toBe('1980');
     expect(tags.exif.ImageDescription.description).toBe('The new car');
   });
 });
@@ -177,15 +177,20 @@ describe('metadata embedded in the exported JPEGs, read back with ExifTool', () 
     // ExifTool gives every date it reads in EXIF's colon form, XMP's "1981-07-15" included
     expect(tags['XMP-photoshop:DateCreated']).toBe('1981:07:15');
     expect(tags['ExifIFD:DateTimeOriginal']).toBe('1981:07:15 00:00:00');
+    // the same caption in IPTC IIM, declared UTF-8 by 1:90 = ESC % G (IIM 4.2), with a digest that matches
+    expect(tags['IPTC:Caption-Abstract']).toBe('Großmutter Zoë am See (Łódź) — „Picknick“');
+    expect(tags['IPTC:CodedCharacterSet']).toBe('\u001b%G');
+    expect(tags['IPTC:DateCreated']).toBe('1981:07:15');
+    expect(tags['File:CurrentIPTCDigest']).toBe(tags['Photoshop:IPTCDigest']);
     expect(tags['ExifTool:Warning']).toBeUndefined();
   });
 
-  it('finds no exact date for "the 1980s", and the caption in EXIF too', async () => {
+  it('finds no exact date for "the 1980s" but its start year, and the caption in EXIF too', async () => {
     const tags = await tagsOf('1980s');
     expect(tags['XMP-dc:Description']).toBe('The new car');
     expect(tags['IFD0:ImageDescription']).toBe('The new car');
     expect(tags['ExifIFD:DateTimeOriginal']).toBeUndefined();
-    expect(tags['XMP-photoshop:DateCreated']).toBeUndefined();
+    expect(tags['XMP-photoshop:DateCreated']).toBe(1980);
     expect(tags['ExifTool:Warning']).toBeUndefined();
   });
 });

@@ -14,7 +14,7 @@ export function scan(seed: number, size = { width: 600, height: 400 }): Promise<
   return syntheticScan({ ...size, seed, border: true, ageing: AGEING_MODELS.darkStorage(0.8), format: 'jpeg', quality: 90 });
 }
 
-export async function createBatch(client: Client, name: string, source = { sourceKind: 'box', sourceLabel: 'Shoebox 1' }): Promise<string> {
+export async function createBatch(client: Client, name: string, source: Record<string, string> = { sourceKind: 'box', sourceLabel: 'Shoebox 1' }): Promise<string> {
   const r = await client.post('/api/batches', { name, ...source });
   if (r.status !== 201) throw new Error(`creating a batch answered ${r.status}: ${r.text}`);
   return r.body.id as string;

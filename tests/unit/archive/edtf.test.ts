@@ -51,6 +51,15 @@ describe('EDTF dates of prints', () => {
     expect(parsePrintDate('1980/1985').xmpDate).toBeNull();
   });
 
+  it("gives a span's or a decade's start at its own precision, and none for a single date or an unknown start", () => {
+    expect(parsePrintDate('1978/1982').spanStart).toBe('1978');
+    expect(parsePrintDate('1981-06/1982-02').spanStart).toBe('1981-06');
+    expect(parsePrintDate('198X').spanStart).toBe('1980');
+    expect(parsePrintDate('/1985').spanStart).toBeNull();
+    expect(parsePrintDate('../1985').spanStart).toBeNull();
+    expect(parsePrintDate('1981-07').spanStart).toBeNull();
+  });
+
   it('files a print under its earliest year, or its decade when the year is not known', () => {
     expect(parsePrintDate('1981-07-15').folder).toBe('1981');
     expect(parsePrintDate('198X').folder).toBe('1980s');
