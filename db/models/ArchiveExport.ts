@@ -1,8 +1,8 @@
 import { DataTypes, Model, type CreationOptional, type InferAttributes, type InferCreationAttributes, type Sequelize } from 'sequelize';
 
-import { EXPORT_STATES, type ExportOptions, type ExportSelection, type ExportState } from '../../src/lib/archive/exports.ts';
+import { EXPORT_STATES, type ExportOptions, type ExportSelection, type ExportState, type ExportStep } from '../../src/lib/archive/exports.ts';
 
-export { EXPORT_STATES, type ExportOptions, type ExportSelection, type ExportState };
+export { EXPORT_STATES, type ExportOptions, type ExportSelection, type ExportState, type ExportStep };
 
 /** One export of an archive as a BagIt zip, with its progress and the result of its fixity check. */
 export class ArchiveExport extends Model<InferAttributes<ArchiveExport>, InferCreationAttributes<ArchiveExport>> {
@@ -15,6 +15,11 @@ export class ArchiveExport extends Model<InferAttributes<ArchiveExport>, InferCr
   declare itemIds: CreationOptional<string[]>;
   declare progressDone: CreationOptional<number>;
   declare progressTotal: CreationOptional<number>;
+  /** While running: packing the prints, or checking the written bag. */
+  declare step: CreationOptional<ExportStep | null>;
+  /** Files of the written bag checked against the manifest so far, and how many it lists. */
+  declare checkDone: CreationOptional<number>;
+  declare checkTotal: CreationOptional<number>;
   declare zipKey: CreationOptional<string | null>;
   declare zipBytes: CreationOptional<number | null>;
   declare zipSha256: CreationOptional<string | null>;
@@ -37,6 +42,9 @@ export class ArchiveExport extends Model<InferAttributes<ArchiveExport>, InferCr
         itemIds: { type: DataTypes.JSONB, allowNull: false, defaultValue: [] },
         progressDone: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
         progressTotal: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
+        step: DataTypes.STRING(20),
+        checkDone: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
+        checkTotal: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
         zipKey: DataTypes.STRING(300),
         zipBytes: {
           type: DataTypes.BIGINT,

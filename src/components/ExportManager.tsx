@@ -1,7 +1,7 @@
 import { useEffect, useState } from 'react';
 import { dateInWords } from '../lib/archive/edtf.ts';
 import { DEFAULT_NAME_PATTERN, namePatternSchema } from '../lib/archive/naming.ts';
-import type { ExportStatus } from '../lib/archive/exports.ts';
+import { exportProgressWords, type ExportStatus } from '../lib/archive/exports.ts';
 import { api, ApiError } from './api-client.ts';
 
 type ExportRow = ExportStatus;
@@ -144,12 +144,15 @@ export default function ExportManager({ counts, prints, exports: initial }: Prop
                     </a>
                   )}
                 </div>
-                {(e.state === 'queued' || e.state === 'running') && (
-                  <div className="mt-2">
-                    <progress className="h-2 w-full" max={100} value={e.progress.percent} aria-label={`Export progress: ${e.progress.done} of ${e.progress.total} prints`} />
-                    <span className="text-xs text-ink-500">{e.progress.done} of {e.progress.total} prints</span>
-                  </div>
-                )}
+                {(e.state === 'queued' || e.state === 'running') && (() => {
+                  const p = exportProgressWords(e);
+                  return (
+                    <div className="mt-2" data-export-step={e.step ?? e.state}>
+                      <progress className="h-2 w-full" max={100} value={p.percent} aria-label={p.words} />
+                      <span className="text-xs text-ink-500" aria-live="polite">{p.words}</span>
+                    </div>
+                  );
+                })()}
                 {e.state === 'failed' && e.failureReason && <p className="mt-1 text-xs text-danger-700">{e.failureReason}</p>}
                 {e.zipSha256 && <p className="mt-1 break-all font-mono text-xs text-ink-500">SHA-256 of the zip: {e.zipSha256}</p>}
               </li>

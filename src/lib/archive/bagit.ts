@@ -114,11 +114,15 @@ export interface BagReport {
   payloadOctets: number;
 }
 
+/** Told after each payload file is checked: how many of the manifest's files are done. */
+export type CheckProgress = (checked: number, listed: number) => void | Promise<void>;
+
 /**
  * Checks a bag against RFC 8493: bagit.txt, every payload file in the manifest with the right
  * SHA-256, no unlisted payload, Payload-Oxum, and the tag manifest over the tag files.
+ * `onPayloadChecked` follows the payload files, the long part for a large bag.
  */
-export async function checkBag(source: BagSource): Promise<BagReport> {
+export async function checkBag(source: BagSource, onPayloadChecked?: CheckProgress): Promise<BagReport> {
   const report: BagReport = { ok: false, missing: [], extra: [], changed: [], problems: [], payloadFiles: 0, payloadOctets: 0 };
   const files = await source.list();
   const byPath = new Map(files.map((f) => [f.path, f]));
@@ -132,7 +136,7 @@ export async function checkBag(source: BagSource): Promise<BagReport> {
     if (text !== BAGIT_TXT) report.problems.push('bagit.txt is not exactly "BagIt-Version: 1.0" and "Tag-File-Character-Encoding: UTF-8".');
   }
 
-  const checkManifest = async (name: string, covered: (p: string) => boolean) => {
+  const checkManifest = async (name: string, covered: (p: string) => boolean, progress?: CheckProgress) => {
     let entries: ManifestEntry[] = [];
     try {
       entries = parseManifest(await source.readText(name), name);
@@ -141,15 +145,18 @@ export async function checkBag(source: BagSource): Promise<BagReport> {
       return;
     }
     const listed = new Set(entries.map((e) => e.path));
+    let checked = 0;
+    await progress?.(0, entries.length);
     for (const e of entries) {
       if (!byPath.has(e.path)) report.missing.push(e.path);
       else if ((await source.sha256(e.path)) !== e.sha256) report.changed.push(e.path);
+      await progress?.(++checked, entries.length);
     }
     for (const f of files) if (covered(f.path) && !listed.has(f.path)) report.extra.push(f.path);
   };
 
   if (!byPath.has(MANIFEST)) report.problems.push(`${MANIFEST} is missing.`);
-  else await checkManifest(MANIFEST, (p) => p.startsWith(PAYLOAD_DIR));
+  else await checkManifest(MANIFEST, (p) => p.startsWith(PAYLOAD_DIR), onPayloadChecked);
 
   const tagFiles = (p: string) => !p.startsWith(PAYLOAD_DIR) && !p.startsWith('tagmanifest-');
   if (byPath.has(TAG_MANIFEST)) await checkManifest(TAG_MANIFEST, tagFiles);

@@ -50,6 +50,8 @@ export function exportStatus(e: ArchiveExport): ExportStatus {
     options: e.options ?? {},
     items: e.itemIds.length,
     progress: { done: e.progressDone, total, percent: total ? Math.min(100, Math.round((100 * e.progressDone) / total)) : e.state === 'ready' ? 100 : 0 },
+    step: e.state === 'running' ? (e.step ?? 'packing') : null,
+    check: { done: e.checkDone ?? 0, total: e.checkTotal ?? 0 },
     zipBytes: e.zipBytes ?? null,
     zipSha256: e.zipSha256 ?? null,
     verified: Boolean(e.verifiedAt),
@@ -239,7 +241,7 @@ export async function runExport(exportId: string): Promise<void> {
   if (!e || e.state === 'ready') return;
   const archive = await Archive.findByPk(e.archiveId);
   if (!archive) return;
-  await e.update({ state: 'running', startedAt: e.startedAt ?? new Date(), progressDone: 0, progressTotal: e.itemIds.length, failureReason: null });
+  await e.update({ state: 'running', step: 'packing', startedAt: e.startedAt ?? new Date(), progressDone: 0, progressTotal: e.itemIds.length, checkDone: 0, checkTotal: 0, failureReason: null });
 
   const store = storage();
   const key = exportKey(e);
@@ -328,22 +330,29 @@ export async function runExport(exportId: string): Promise<void> {
     const written = await stored;
 
     // The bag is checked as a reader will find it: from the zip on disk, every checksum recomputed.
+    // For hundreds of prints that takes a while, and the page says so (checked files, a few times a second).
+    await ArchiveExport.update({ progressDone: e.itemIds.length, step: 'checking' }, { where: { id: e.id } });
     const source = await zipBagSource(await store.localPath(key));
     let report;
+    let checkSavedAt = 0;
     try {
-      report = await checkBag(source);
+      report = await checkBag(source, async (checked, listed) => {
+        if (checked !== 0 && checked !== listed && Date.now() - checkSavedAt < 500) return;
+        checkSavedAt = Date.now();
+        await ArchiveExport.update({ checkDone: checked, checkTotal: listed }, { where: { id: e.id } });
+      });
     } finally {
       source.close();
     }
     if (!report.ok) throw new Error(`The written bag failed its check: ${describeBagReport(report).slice(0, 5).join('; ')}`);
     const zipSha = await sha256Of(key);
-    await e.update({ state: 'ready', progressDone: e.itemIds.length, zipKey: key, zipBytes: written.bytes, zipSha256: zipSha, verifiedAt: new Date(), finishedAt: new Date() });
+    await e.update({ state: 'ready', step: null, progressDone: e.itemIds.length, checkDone: report.payloadFiles, checkTotal: report.payloadFiles, zipKey: key, zipBytes: written.bytes, zipSha256: zipSha, verifiedAt: new Date(), finishedAt: new Date() });
   } catch (err) {
     bag.abort();
     out.destroy();
     await stored.catch(() => undefined);
     await store.remove(key).catch(() => undefined);
-    await e.update({ state: 'failed', failureReason: String((err as Error)?.message ?? err).slice(0, 1000), finishedAt: new Date() });
+    await e.update({ state: 'failed', step: null, failureReason: String((err as Error)?.message ?? err).slice(0, 1000), finishedAt: new Date() });
     throw err;
   }
   await notifyReady(e, archive);

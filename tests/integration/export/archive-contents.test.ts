@@ -2,7 +2,8 @@ import fs from 'node:fs/promises';
 import os from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { closeDb } from '../../../db/index.ts';
+import { QueryTypes } from 'sequelize';
+import { closeDb, db } from '../../../db/index.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
 import { exiftool, runTool, unpackWithUnzip } from '../../support/outside-checks.ts';
 import { createBatch, decide, downloadBytes, scan, uploadScan, waitExport, waitReady } from './helpers.ts';
@@ -11,6 +12,8 @@ let a: TestArchive;
 let bag: string;
 let status: any;
 let photos: string[];
+/** Every change the export's row went through, recorded by a trigger while it ran. */
+let steps: { state: string; step: string | null; progress_done: number; progress_total: number; check_done: number; check_total: number }[];
 
 beforeAll(async () => {
   a = await makeArchive('archive-contents');
@@ -23,16 +26,49 @@ beforeAll(async () => {
   await editor.patch(`/api/items/${ids[1]}/metadata`, { caption: 'Łukasz and the dog', dateEdtf: 'between 1978 and 1982' });
   // the third keeps no date: it goes into the batch's years
   for (const id of ids) await decide(editor, id, 'accepted');
+  // The row's changes are recorded as they happen (a trigger in a schema of the test's own, for
+  // this archive only), so a step too short to see by polling is seen all the same.
+  await db().query(`CREATE SCHEMA IF NOT EXISTS export_trace`);
+  await db().query(`CREATE TABLE IF NOT EXISTS export_trace.steps (n bigserial, export_id uuid, state text, step text, progress_done int, progress_total int, check_done int, check_total int)`);
+  await db().query(`CREATE OR REPLACE FUNCTION export_trace.record() RETURNS trigger AS $$ BEGIN
+      INSERT INTO export_trace.steps (export_id, state, step, progress_done, progress_total, check_done, check_total)
+      VALUES (NEW.id, NEW.state, NEW.step, NEW.progress_done, NEW.progress_total, NEW.check_done, NEW.check_total); RETURN NEW; END $$ LANGUAGE plpgsql`);
+  await db().query(`CREATE TRIGGER export_trace_${a.id.replace(/-/g, '')} AFTER UPDATE ON exports FOR EACH ROW WHEN (NEW.archive_id = '${a.id}') EXECUTE FUNCTION export_trace.record()`);
   const r = await editor.post('/api/exports', { selection: { kind: 'batch', batchId } });
   expect(r.status).toBe(202);
   status = await waitExport(editor, r.headers.get('location')!);
+  steps = await db().query(`SELECT state, step, progress_done, progress_total, check_done, check_total FROM export_trace.steps WHERE export_id = :id ORDER BY n`, { replacements: { id: status.id }, type: QueryTypes.SELECT });
   expect(status.state).toBe('ready');
   const dl = await downloadBytes(editor, status.downloadUrl);
   const tmp = await fs.mkdtemp(path.join(os.tmpdir(), 'archive-contents-'));
   bag = await unpackWithUnzip(dl.bytes, tmp);
   photos = (await fs.readdir(path.join(bag, 'data/photos'), { recursive: true })).map(String).filter((p) => p.endsWith('.jpg')).sort();
 }, 400_000);
-afterAll(() => closeDb());
+afterAll(async () => {
+  await db().query(`DROP TRIGGER IF EXISTS export_trace_${a.id.replace(/-/g, '')} ON exports`);
+  await db().query(`DROP SCHEMA IF EXISTS export_trace CASCADE`);
+  await closeDb();
+});
+
+describe('progress that tells the truth', () => {
+  it('shows the check of the written bag as a step of its own, after every print is packed, file by file', () => {
+    const checking = steps.filter((s) => s.step === 'checking');
+    expect(checking.length).toBeGreaterThan(0);
+    // every print is packed before the check starts: never "2 of 3" while the bag is checked
+    for (const s of checking) expect(s.progress_done).toBe(3);
+    // 3 JPEGs and photos.csv, from none checked to all
+    expect(checking.map((s) => s.check_done)).toContain(0);
+    expect(checking.at(-1)).toMatchObject({ check_done: 4, check_total: 4 });
+    // packing came first, the check after it, and the export was ready only once the check was done
+    const firstCheck = steps.findIndex((s) => s.step === 'checking');
+    expect(steps.slice(0, firstCheck).every((s) => s.step === 'packing' && s.state === 'running')).toBe(true);
+    expect(steps.slice(firstCheck).findIndex((s) => s.state === 'ready')).toBeGreaterThan(0);
+  });
+
+  it('says what was checked once the export is ready', () => {
+    expect(status).toMatchObject({ state: 'ready', verified: true, step: null, check: { done: 4, total: 4 } });
+  });
+});
 
 describe('what the archive carries', () => {
   it("files prints by their dates, a span under its first year, and an undated print in its batch's years instead of undated/", () => {

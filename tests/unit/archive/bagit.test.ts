@@ -27,6 +27,17 @@ function memoryBag(payload: Record<string, string>) {
 }
 
 describe('BagIt helpers (RFC 8493)', () => {
+  it('tells how many payload files of the manifest it has checked, from none to all, the changed ones included', async () => {
+    const { files, source } = memoryBag({ 'a.jpg': 'one', 'b.jpg': 'two', 'c.jpg': 'three' });
+    files.set('data/b.jpg', Buffer.from('TWO'));
+    const seen: [number, number][] = [];
+    const report = await checkBag(source, (checked, listed) => {
+      seen.push([checked, listed]);
+    });
+    expect(seen).toEqual([[0, 3], [1, 3], [2, 3], [3, 3]]);
+    expect(report.changed).toEqual(['data/b.jpg']);
+  });
+
   it('writes bagit.txt exactly as §2.1.1 gives it', () => {
     expect(BAGIT_TXT).toBe('BagIt-Version: 1.0\nTag-File-Character-Encoding: UTF-8\n');
   });
