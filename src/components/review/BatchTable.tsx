@@ -1,10 +1,15 @@
 /**
- * The batch review table: every print with its thumbnail, state, fade grade, paper-base swatch,
- * dye bars and decision; sort and filter; select several for one decision (undone at once if need
- * be), to clear their decisions, to move them to another batch or to remove them.
+ * The batch review table, a page at a time: search over captions, people, places and the back of
+ * the print; filters (state, fading, decision, what is still missing) and an order, all worked out
+ * on the server (GET /api/batches/<id>/items?view=rows), so a batch of 1,000 prints sends one page
+ * of rows. Every print with its thumbnail, state, fade grade, paper-base swatch, dye bars and
+ * decision. Select prints on several pages, or every print that matches, for one decision (undone
+ * at once if need be), to clear their decisions, to move them to another batch or to remove them;
+ * after each, the page and the batch's counts are read again.
  */
-import { useMemo, useState } from 'react';
+import { useEffect, useRef, useState } from 'react';
 import type { ItemRow } from '../../lib/review/types.ts';
+import { LIST_SORTS, listQueryToParams, MISSING, TALLY_EVENT, type ListPage, type ListQuery, type ListSort, type Missing, type ReviewTally } from '../../lib/review/listing.ts';
 import {
   DECISION_WORDS,
   FADE_GRADES,
@@ -20,84 +25,125 @@ import {
 } from '../../lib/review/words.ts';
 import { api, ApiError } from '../api-client.ts';
 
+type RowsPage = ListPage<ItemRow> & { tally: ReviewTally; firstToReview: string | null };
+
 interface Props {
   batchId: string;
-  rows: ItemRow[];
+  /** The page the server rendered, for `query`. */
+  initial: RowsPage;
+  query: ListQuery;
   canDecide: boolean;
   /** The archive's other batches, where prints can be moved. */
   otherBatches?: { id: string; name: string }[];
 }
 
 type BulkDecision = Exclude<Decision, 'accepted_adjusted'> | 'undecided';
-const plural = (n: number, one: string, many = `${one}s`) => `${n} ${n === 1 ? one : many}`;
+type Filters = Pick<ListQuery, 'q' | 'state' | 'grade' | 'decision' | 'missing' | 'sort' | 'page' | 'per'>;
+const plural = (n: number, one: string, many = `${one}s`) => `${n.toLocaleString('en-GB')} ${n === 1 ? one : many}`;
 
-type SortKey = 'seq' | 'grade' | 'paper' | 'loss' | 'doubt' | 'decision';
-const SORTS: { key: SortKey; words: string }[] = [
-  { key: 'seq', words: 'Scan order' },
-  { key: 'grade', words: 'Most faded first' },
-  { key: 'paper', words: 'Most yellowed paper first' },
-  { key: 'loss', words: 'Most dye lost first' },
-  { key: 'doubt', words: 'Least certain first' },
-  { key: 'decision', words: 'Not reviewed first' },
-];
 /** Expected CIEDE2000 from which a print is marked as one the engine is unsure of (a difference easily seen side by side; our own choice). */
 const UNSURE_FROM = 5;
+/** How long typing may pause before the search is sent. */
+const SEARCH_PAUSE_MS = 250;
 const DYE_COLOURS = { cyan: '#3b8ea5', magenta: '#b0487a', yellow: '#c9a227' } as const;
-const gradeRank = (g: string | null) => (g ? FADE_GRADES.indexOf(g as FadeGradeName) : -1);
 
 function hex(rgb: readonly number[]): string {
   return `#${rgb.map((v) => Math.round(Math.min(1, Math.max(0, v)) * 255).toString(16).padStart(2, '0')).join('')}`;
 }
 
-export default function BatchTable({ batchId, rows: initialRows, canDecide, otherBatches = [] }: Props) {
-  const [rows, setRows] = useState(initialRows);
-  const [state, setState] = useState<string>('all');
-  const [grade, setGrade] = useState<string>('all');
-  const [decision, setDecision] = useState<string>('all');
-  const [sort, setSort] = useState<SortKey>('seq');
-  const [selected, setSelected] = useState<Set<string>>(new Set());
+export default function BatchTable({ batchId, initial, query, canDecide, otherBatches = [] }: Props) {
+  const [data, setData] = useState<RowsPage>(initial);
+  const [filters, setFilters] = useState<Filters>({ q: query.q ?? '', state: query.state, grade: query.grade, decision: query.decision, missing: query.missing ?? [], sort: query.sort ?? 'seq', page: query.page ?? 1, per: query.per });
+  const [searchText, setSearchText] = useState(query.q ?? '');
+  const [loading, setLoading] = useState(false);
+  /** Chosen prints, kept across pages: id to the lockVersion and number they had when chosen. */
+  const [selected, setSelected] = useState<Map<string, { lockVersion: number; seq: number }>>(new Map());
   const [busy, setBusy] = useState(false);
   const [message, setMessage] = useState<{ kind: 'info' | 'error'; text: string; details?: string[]; undo?: string } | null>(null);
   const [pending, setPending] = useState<null | 'move' | 'remove'>(null);
   const [moveTo, setMoveTo] = useState(otherBatches[0]?.id ?? '');
   const [rescan, setRescan] = useState<{ open: boolean; negativeAvailable: NegativeAvailability; negativeLocation: string }>({ open: false, negativeAvailable: 'unknown', negativeLocation: '' });
+  const asked = useRef(0);
+  const first = useRef(true);
+  const rows = data.items;
 
-  const shown = useMemo(() => {
-    const list = rows.filter(
-      (r) =>
-        (state === 'all' || r.state === state) &&
-        (grade === 'all' || r.fadeGrade === grade) &&
-        (decision === 'all' || (decision === 'undecided' ? !r.decision : r.decision === decision)),
-    );
-    const by: Record<SortKey, (a: ItemRow, b: ItemRow) => number> = {
-      seq: (a, b) => a.seq - b.seq,
-      grade: (a, b) => gradeRank(b.fadeGrade) - gradeRank(a.fadeGrade) || a.seq - b.seq,
-      paper: (a, b) => (b.paperBase?.deltaE00 ?? -1) - (a.paperBase?.deltaE00 ?? -1) || a.seq - b.seq,
-      loss: (a, b) => (b.dyeLoss ?? -1) - (a.dyeLoss ?? -1) || a.seq - b.seq,
-      doubt: (a, b) => (b.expectedDeltaE00 ?? -1) - (a.expectedDeltaE00 ?? -1) || a.seq - b.seq,
-      decision: (a, b) => Number(!!a.decision) - Number(!!b.decision) || a.seq - b.seq,
-    };
-    return list.sort(by[sort]);
-  }, [rows, state, grade, decision, sort]);
+  /** Reads the page for `f` from the server; an older answer arriving late is dropped. */
+  async function load(f: Filters): Promise<void> {
+    const ticket = ++asked.current;
+    setLoading(true);
+    try {
+      const params = listQueryToParams({ ...f, view: 'rows' });
+      const next = await api<RowsPage>(`/api/batches/${batchId}/items?${params}`);
+      if (ticket !== asked.current) return;
+      // past the last page (prints left the filter): the last page there is
+      if (next.items.length === 0 && next.page > 1 && next.total > 0) {
+        setFilters((x) => ({ ...x, page: next.pages }));
+        return;
+      }
+      setData(next);
+      window.dispatchEvent(new CustomEvent<ReviewTally>(TALLY_EVENT, { detail: next.tally }));
+      const own = listQueryToParams(f).toString();
+      window.history.replaceState(null, '', `${window.location.pathname}${own ? `?${own}` : ''}`);
+    } catch (err) {
+      if (ticket === asked.current) setMessage({ kind: 'error', text: (err as ApiError).message ?? 'The prints could not be loaded.' });
+    } finally {
+      if (ticket === asked.current) setLoading(false);
+    }
+  }
 
-  // failed and waiting prints can be chosen too: to be moved or removed (a decision skips them and says why)
-  const selectable = shown;
-  const allShownSelected = selectable.length > 0 && selectable.every((r) => selected.has(r.id));
-  const toggle = (id: string) =>
+  useEffect(() => {
+    if (first.current) {
+      first.current = false;
+      return;
+    }
+    void load(filters);
+  }, [filters]);
+
+  // the search goes out once typing pauses
+  useEffect(() => {
+    if ((filters.q ?? '') === searchText.trim()) return;
+    const t = setTimeout(() => setFilters((x) => ({ ...x, q: searchText.trim(), page: 1 })), SEARCH_PAUSE_MS);
+    return () => clearTimeout(t);
+  }, [searchText]);
+
+  const refine = (change: Partial<Filters>) => setFilters((x) => ({ ...x, ...change, page: change.page ?? 1 }));
+  const toggleMissing = (m: Missing) => refine({ missing: filters.missing.includes(m) ? filters.missing.filter((x) => x !== m) : [...filters.missing, m] });
+  const reload = () => load(filters);
+
+  const allShownSelected = rows.length > 0 && rows.every((r) => selected.has(r.id));
+  const toggle = (r: ItemRow) =>
     setSelected((s) => {
-      const n = new Set(s);
-      if (n.has(id)) n.delete(id);
-      else n.add(id);
+      const n = new Map(s);
+      if (n.has(r.id)) n.delete(r.id);
+      else n.set(r.id, { lockVersion: r.lockVersion, seq: r.seq });
+      return n;
+    });
+  const toggleShown = () =>
+    setSelected((s) => {
+      const n = new Map(s);
+      if (allShownSelected) for (const r of rows) n.delete(r.id);
+      else for (const r of rows) n.set(r.id, { lockVersion: r.lockVersion, seq: r.seq });
       return n;
     });
 
-  type Answer = { bulkId: string; decided: { id: string; lockVersion: number; decision: Decision | null }[]; conflicts: { id: string; message: string }[] };
-  const seqOf = (id: string) => rows.find((r) => r.id === id)?.seq ?? id;
-
-  function applyAnswer(res: Answer, negativeLocation: string | null) {
-    const done = new Map(res.decided.map((x) => [x.id, x]));
-    setRows((rs) => rs.map((r) => (done.has(r.id) ? { ...r, decision: done.get(r.id)!.decision, lockVersion: done.get(r.id)!.lockVersion, negativeLocation: done.get(r.id)!.decision === 'rescan' ? negativeLocation : null } : r)));
+  async function selectAllMatching() {
+    setBusy(true);
+    try {
+      const res = await api<{ items: { id: string; seq: number; lockVersion: number }[] }>(`/api/batches/${batchId}/items?${listQueryToParams({ ...filters, page: undefined, view: 'ids' })}`);
+      setSelected((s) => {
+        const n = new Map(s);
+        for (const r of res.items) n.set(r.id, { lockVersion: r.lockVersion, seq: r.seq });
+        return n;
+      });
+    } catch (err) {
+      failed(err, 'The prints could not be chosen.');
+    } finally {
+      setBusy(false);
+    }
   }
+
+  type Answer = { bulkId: string; decided: { id: string; lockVersion: number; decision: Decision | null }[]; conflicts: { id: string; message: string }[] };
+  const seqOf = (id: string) => selected.get(id)?.seq ?? rows.find((r) => r.id === id)?.seq ?? id;
 
   function failed(err: unknown, fallback: string) {
     const e = err as ApiError;
@@ -105,7 +151,7 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
   }
 
   async function decideSelected(d: BulkDecision) {
-    const items = rows.filter((r) => selected.has(r.id)).map((r) => ({ id: r.id, lockVersion: r.lockVersion }));
+    const items = [...selected].map(([id, v]) => ({ id, lockVersion: v.lockVersion }));
     if (items.length === 0) return;
     setBusy(true);
     setMessage(null);
@@ -116,16 +162,18 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
     }
     try {
       const res = await api<Answer>(`/api/batches/${batchId}/decisions`, { body });
-      applyAnswer(res, d === 'rescan' ? rescan.negativeLocation.trim() || null : null);
-      setSelected(new Set());
       setRescan((x) => ({ ...x, open: false }));
       const what = d === 'undecided' ? 'Back to not reviewed' : DECISION_WORDS[d];
-      setMessage({
-        kind: res.conflicts.length ? 'error' : 'info',
+      const said = {
+        kind: res.conflicts.length ? ('error' as const) : ('info' as const),
         text: `${what}: ${plural(res.decided.length, 'print')}.${res.conflicts.length ? ` ${res.conflicts.length} left as they were:` : ''}`,
         details: res.conflicts.map((c) => `Print ${seqOf(c.id)}: ${c.message}`),
         undo: res.bulkId,
-      });
+      };
+      setSelected(new Map());
+      // the rows and counts first, then the message: what it says is on the page when it shows
+      await reload();
+      setMessage(said);
     } catch (err) {
       failed(err, 'The decision could not be saved.');
     } finally {
@@ -137,7 +185,7 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
     setBusy(true);
     try {
       const res = await api<Answer>(`/api/batches/${batchId}/decisions/undo`, { body: { bulkId } });
-      applyAnswer(res, null);
+      await reload();
       setMessage({
         kind: res.conflicts.length ? 'error' : 'info',
         text: `Undone: ${plural(res.decided.length, 'print')} back to their decisions before.${res.conflicts.length ? ` ${res.conflicts.length} changed since and kept as they are:` : ''}`,
@@ -152,58 +200,66 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
 
   /** Moves or removes the chosen prints one by one; each print's answer is reported. */
   async function eachSelected(action: 'move' | 'remove') {
-    const chosen = rows.filter((r) => selected.has(r.id));
+    const chosenNow = [...selected];
     const target = otherBatches.find((b) => b.id === moveTo);
     setBusy(true);
     setMessage(null);
-    const gone: string[] = [];
+    let gone = 0;
     const problems: string[] = [];
-    for (const r of chosen) {
+    for (const [id, { seq }] of chosenNow) {
       try {
-        if (action === 'move') await api(`/api/items/${r.id}/move`, { body: { batchId: moveTo } });
-        else await api(`/api/items/${r.id}/removal`, { body: { confirm: true } });
-        gone.push(r.id);
+        if (action === 'move') await api(`/api/items/${id}/move`, { body: { batchId: moveTo } });
+        else await api(`/api/items/${id}/removal`, { body: { confirm: true } });
+        gone++;
       } catch (err) {
-        problems.push(`Print ${r.seq}: ${(err as ApiError).message}`);
+        problems.push(`Print ${seq}: ${(err as ApiError).message}`);
       }
     }
-    setRows((rs) => rs.filter((r) => !gone.includes(r.id)));
-    setSelected(new Set());
+    setSelected(new Map());
     setPending(null);
-    setBusy(false);
+    await reload();
     setMessage({
       kind: problems.length ? 'error' : 'info',
       text:
         action === 'move'
-          ? `Moved ${plural(gone.length, 'print')} to "${target?.name ?? 'the other batch'}".`
-          : `Removed ${plural(gone.length, 'print')}. They can be restored from Recently removed for 30 days.`,
+          ? `Moved ${plural(gone, 'print')} to "${target?.name ?? 'the other batch'}".`
+          : `Removed ${plural(gone, 'print')}. They can be restored from Recently removed for 30 days.`,
       details: problems,
     });
+    setBusy(false);
   }
 
-  const chosen = rows.filter((r) => selected.has(r.id));
-  const chosenDecided = chosen.filter((r) => r.decision).length;
-  const firstToReview = rows.find((r) => r.state === 'ready' && !r.decision);
+  const chosen = [...selected.values()];
+  const firstShown = data.total === 0 ? 0 : (data.page - 1) * data.per + 1;
+  const lastShown = Math.min(data.total, data.page * data.per);
+  const filtered = Boolean(filters.q || filters.state || filters.grade || filters.decision || filters.missing.length);
   return (
     <section className="space-y-3" data-batch-table>
-      <div className="flex flex-wrap items-end gap-3">
+      <form className="flex flex-wrap items-end gap-3" role="search" aria-label="Find prints in this batch" onSubmit={(e) => {
+        e.preventDefault();
+        refine({ q: searchText.trim() });
+      }}>
+        <div className="min-w-[16rem] flex-1">
+          <label htmlFor="f-search" className="label">Search captions, people, places, the back of the print</label>
+          <input id="f-search" type="search" className="field py-1.5" value={searchText} maxLength={200} placeholder="e.g. Lough Arrow, Máire, 1981" onChange={(e) => setSearchText(e.target.value)} data-search />
+        </div>
         <div>
           <label htmlFor="f-state" className="label">State</label>
-          <select id="f-state" className="field w-auto py-1.5" value={state} onChange={(e) => setState(e.target.value)}>
+          <select id="f-state" className="field w-auto py-1.5" value={filters.state ?? 'all'} onChange={(e) => refine({ state: e.target.value === 'all' ? undefined : (e.target.value as Filters['state']) })}>
             <option value="all">All</option>
             {ITEM_STATES.map((s) => <option key={s} value={s}>{STATE_WORDS[s]}</option>)}
           </select>
         </div>
         <div>
           <label htmlFor="f-grade" className="label">Fading</label>
-          <select id="f-grade" className="field w-auto py-1.5" value={grade} onChange={(e) => setGrade(e.target.value)}>
+          <select id="f-grade" className="field w-auto py-1.5" value={filters.grade ?? 'all'} onChange={(e) => refine({ grade: e.target.value === 'all' ? undefined : (e.target.value as FadeGradeName) })}>
             <option value="all">All</option>
             {FADE_GRADES.map((g) => <option key={g} value={g}>{GRADE_WORDS[g]}</option>)}
           </select>
         </div>
         <div>
           <label htmlFor="f-decision" className="label">Decision</label>
-          <select id="f-decision" className="field w-auto py-1.5" value={decision} onChange={(e) => setDecision(e.target.value)}>
+          <select id="f-decision" className="field w-auto py-1.5" value={filters.decision ?? 'all'} onChange={(e) => refine({ decision: e.target.value === 'all' ? undefined : (e.target.value as Filters['decision']) })}>
             <option value="all">All</option>
             <option value="undecided">{DECISION_WORDS.undecided}</option>
             {(['accepted', 'accepted_adjusted', 'rescan', 'skipped'] as const).map((d) => <option key={d} value={d}>{DECISION_WORDS[d]}</option>)}
@@ -211,12 +267,21 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
         </div>
         <div>
           <label htmlFor="f-sort" className="label">Order</label>
-          <select id="f-sort" className="field w-auto py-1.5" value={sort} onChange={(e) => setSort(e.target.value as SortKey)}>
-            {SORTS.map((s) => <option key={s.key} value={s.key}>{s.words}</option>)}
+          <select id="f-sort" className="field w-auto py-1.5" value={filters.sort} onChange={(e) => refine({ sort: e.target.value as ListSort })}>
+            {LIST_SORTS.map((s) => <option key={s.key} value={s.key}>{s.words}</option>)}
           </select>
         </div>
-        {firstToReview && <a className="btn-primary ml-auto" href={`/items/${firstToReview.id}`} data-start-review>Review one by one</a>}
-      </div>
+        <fieldset className="flex flex-wrap items-center gap-x-3 gap-y-1 pb-1.5 text-sm">
+          <legend className="label">Still to find out</legend>
+          {MISSING.map((m) => (
+            <label key={m.key} className="inline-flex items-center gap-1.5">
+              <input type="checkbox" className="accent-lamp-600" checked={filters.missing.includes(m.key)} onChange={() => toggleMissing(m.key)} data-missing={m.key} />
+              {m.words}
+            </label>
+          ))}
+        </fieldset>
+        {data.firstToReview && <a className="btn-primary ml-auto" href={`/items/${data.firstToReview}`} data-start-review>Review one by one</a>}
+      </form>
 
       {canDecide && (
         <div className="flex flex-wrap items-center gap-2 rounded-md border border-paper-200 bg-paper-100 px-3 py-2 text-sm" data-bulk-bar>
@@ -227,7 +292,12 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
           <button type="button" className="btn-quiet py-1.5" disabled={busy || selected.size === 0} onClick={() => void decideSelected('undecided')} data-bulk="undecided">Back to not reviewed</button>
           <button type="button" className="btn-quiet py-1.5" disabled={busy || selected.size === 0 || otherBatches.length === 0} onClick={() => setPending(pending === 'move' ? null : 'move')} aria-expanded={pending === 'move'} data-bulk="move">Move to another batch…</button>
           <button type="button" className="btn-quiet py-1.5 text-danger-700" disabled={busy || selected.size === 0} onClick={() => setPending(pending === 'remove' ? null : 'remove')} aria-expanded={pending === 'remove'} data-bulk="remove">Remove…</button>
-          {selected.size > 0 && <button type="button" className="btn-quiet py-1.5" onClick={() => setSelected(new Set())}>Clear selection</button>}
+          {selected.size > 0 && <button type="button" className="btn-quiet py-1.5" onClick={() => setSelected(new Map())}>Clear selection</button>}
+          {data.total > rows.length && (
+            <button type="button" className="btn-quiet py-1.5" disabled={busy} onClick={() => void selectAllMatching()} data-select-matching>
+              Select all {plural(data.total, filtered ? 'print that matches' : 'print', filtered ? 'prints that match' : 'prints')}
+            </button>
+          )}
           {pending === 'move' && selected.size > 0 && (
             <div className="flex w-full flex-wrap items-end gap-3 pt-2" data-move-panel>
               <div>
@@ -243,7 +313,7 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
           {pending === 'remove' && selected.size > 0 && (
             <div className="w-full space-y-2 pt-2" role="alertdialog" aria-labelledby="remove-what" data-remove-panel>
               <p id="remove-what" className="text-ink-900">
-                Remove {chosen.length === 1 ? `print ${chosen[0].seq}` : plural(chosen.length, 'print')} from this batch{chosenDecided ? `, with ${chosenDecided === chosen.length && chosen.length === 1 ? 'its decision' : `the decisions on ${plural(chosenDecided, 'print')}`}` : ''}, captions and corrections?
+                Remove {chosen.length === 1 ? `print ${chosen[0].seq}` : plural(chosen.length, 'print')} from this batch, with {chosen.length === 1 ? 'its decision' : 'their decisions'}, captions and corrections?
               </p>
               <p className="text-xs text-ink-500">They leave every list, the rescan list and exports at once. Recently removed keeps them, original scans included, for 30 days; after that they are deleted for good.</p>
               <div className="flex gap-2">
@@ -288,7 +358,9 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
         )}
       </div>
 
-      <div className="overflow-x-auto rounded-lg border border-paper-200 bg-white">
+      <Pager data={data} loading={loading} onPage={(page) => refine({ page })} first={firstShown} last={lastShown} filtered={filtered} where="top" />
+
+      <div className={`overflow-x-auto rounded-lg border border-paper-200 bg-white ${loading ? 'opacity-60' : ''}`} aria-busy={loading}>
         <table className="w-full text-sm">
           <caption className="sr-only">Prints of this batch</caption>
           <thead className="bg-paper-50 text-left text-xs uppercase tracking-wide text-ink-500">
@@ -297,9 +369,9 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
                 <th scope="col" className="w-10 px-3 py-2">
                   <input
                     type="checkbox"
-                    aria-label="Select every print shown"
+                    aria-label="Select every print on this page"
                     checked={allShownSelected}
-                    onChange={() => setSelected((s) => (allShownSelected ? new Set([...s].filter((id) => !selectable.some((r) => r.id === id))) : new Set([...s, ...selectable.map((r) => r.id)])))}
+                    onChange={toggleShown}
                     className="accent-lamp-600"
                     data-select-shown
                   />
@@ -314,11 +386,11 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
             </tr>
           </thead>
           <tbody className="divide-y divide-paper-200">
-            {shown.map((r) => (
+            {rows.map((r) => (
               <tr key={r.id} data-item-row={r.id} data-seq={r.seq} data-state={r.state} data-decision={r.decision ?? 'none'} className={selected.has(r.id) ? 'bg-lamp-500/5' : undefined}>
                 {canDecide && (
                   <td className="px-3 py-2">
-                    <input type="checkbox" aria-label={`Select print ${r.seq}`} checked={selected.has(r.id)} onChange={() => toggle(r.id)} className="accent-lamp-600" />
+                    <input type="checkbox" aria-label={`Select print ${r.seq}`} checked={selected.has(r.id)} onChange={() => toggle(r)} className="accent-lamp-600" />
                   </td>
                 )}
                 <td className="px-3 py-2">
@@ -331,6 +403,7 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
                     <span>
                       <span className="font-medium">{r.seq}</span>
                       <span className="block max-w-[14rem] truncate text-xs text-ink-500">{r.originalName}</span>
+                      {r.caption && <span className="block max-w-[18rem] truncate text-xs text-ink-700" data-caption>{r.caption}</span>}
                     </span>
                   </a>
                 </td>
@@ -375,14 +448,46 @@ export default function BatchTable({ batchId, rows: initialRows, canDecide, othe
                 </td>
               </tr>
             ))}
-            {shown.length === 0 && (
+            {rows.length === 0 && (
               <tr>
-                <td colSpan={canDecide ? 7 : 6} className="px-3 py-6 text-center text-ink-500">No prints match these filters.</td>
+                <td colSpan={canDecide ? 7 : 6} className="px-3 py-6 text-center text-ink-500" data-no-match>
+                  {filtered ? 'No prints match this search and these filters.' : 'No prints in this batch yet.'}
+                </td>
               </tr>
             )}
           </tbody>
         </table>
       </div>
+
+      {data.pages > 1 && <Pager data={data} loading={loading} onPage={(page) => refine({ page })} first={firstShown} last={lastShown} filtered={filtered} where="bottom" />}
     </section>
+  );
+}
+
+/** Where in the listing this page is, and the way to the others. */
+function Pager({ data, loading, onPage, first, last, filtered, where }: { data: RowsPage; loading: boolean; onPage: (page: number) => void; first: number; last: number; filtered: boolean; where: 'top' | 'bottom' }) {
+  const n = (x: number) => x.toLocaleString('en-GB');
+  const said = data.total === 0 ? (filtered ? 'No prints match.' : 'No prints.') : `Prints ${n(first)}–${n(last)} of ${n(data.total)}${filtered ? ' that match' : ''}`;
+  return (
+    <nav className="flex flex-wrap items-center gap-2 text-sm text-ink-700" aria-label={where === 'top' ? 'Pages of prints' : 'Pages of prints, again'} data-pager={where}>
+      <span className="mr-2" aria-live={where === 'top' ? 'polite' : undefined} data-range>{said}</span>
+      {data.pages > 1 && (
+        <>
+          <button type="button" className="btn-quiet py-1" disabled={loading || data.page <= 1} onClick={() => onPage(data.page - 1)} data-page-previous>
+            ← Previous
+          </button>
+          <label className="inline-flex items-center gap-1.5">
+            <span>Page</span>
+            <select className="field w-auto py-1" value={data.page} onChange={(e) => onPage(Number(e.target.value))} aria-label={`Page, of ${data.pages}`}>
+              {Array.from({ length: data.pages }, (_, i) => <option key={i + 1} value={i + 1}>{i + 1}</option>)}
+            </select>
+            <span>of {data.pages}</span>
+          </label>
+          <button type="button" className="btn-quiet py-1" disabled={loading || data.page >= data.pages} onClick={() => onPage(data.page + 1)} data-page-next>
+            Next →
+          </button>
+        </>
+      )}
+    </nav>
   );
 }

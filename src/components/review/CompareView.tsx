@@ -7,7 +7,7 @@ import { useCallback, useEffect, useLayoutEffect, useMemo, useRef, useState } fr
 import type Konva from 'konva';
 import { Group, Image as KImage, Layer, Line, Rect, Stage, Text, Circle } from 'react-konva';
 import { renderPreview, samplePatch } from '../../lib/review/adjust.ts';
-import { blankLike, loadPreview, loadRegion, type LoadedPixels, type Region } from './images.ts';
+import { blankLike, framedCopy, framedSize, loadFramedRegion, loadPreview, type LoadedPixels, type Region } from './images.ts';
 import { useReview, type ViewTransform } from './store.ts';
 
 const TEAL = '#0d5f59';
@@ -103,8 +103,16 @@ export default function CompareView() {
     };
   }, [item?.id]);
 
-  const px = preview && preview.id === item?.id ? preview.px : null;
-  const scan = useMemo(() => (px && item ? scanSize(item.width, item.height, px) : null), [px, item?.width, item?.height]);
+  const loaded = preview && preview.id === item?.id ? preview.px : null;
+  const upright = useMemo(() => (loaded && item ? scanSize(item.width, item.height, loaded) : null), [loaded, item?.width, item?.height]);
+  // both halves are framed as the render will be: turned and cropped by the working correction
+  const geometryKey = JSON.stringify(working?.geometry ?? null);
+  const px = useMemo(() => (loaded && working ? framedCopy(loaded, working) : loaded), [loaded, geometryKey]);
+  const framed = useMemo(() => (upright && working ? framedSize(upright.w, upright.h, working) : null), [upright, geometryKey]);
+  const scan = framed ? { w: framed.w, h: framed.h } : null;
+  useEffect(() => {
+    if (px && working?.geometry !== undefined) useReview.setState((s) => ({ view: { ...s.view, fitted: true } }));
+  }, [geometryKey]);
   const frameW = layout === 'split' ? size.w : (size.w - GAP) / 2;
 
   // keep the automatic fit while the operator has not zoomed
@@ -114,7 +122,8 @@ export default function CompareView() {
 
   // live preview: the engine's tables on the browser's pixels, drawn before the browser paints
   useLayoutEffect(() => {
-    if (!px || !working || !corrected.current) return;
+    if (!px || !working) return;
+    if (!corrected.current || corrected.current.canvas.width !== px.width || corrected.current.canvas.height !== px.height) corrected.current = blankLike(px);
     correctInto(corrected.current, px, working);
     if (hires) correctInto(hires.corrected, hires.original, working);
     imageLayer.current?.batchDraw();
@@ -141,7 +150,7 @@ export default function CompareView() {
       const region = { x: x0, y: y0, w: x1 - x0, h: y1 - y0 };
       if (hires && hires.region.x <= x0 && hires.region.y <= y0 && hires.region.x + hires.region.w >= x1 && hires.region.y + hires.region.h >= y1) return;
       try {
-        const original = await loadRegion(item.id, region, ctrl.signal);
+        const original = await loadFramedRegion(item.id, region, framed!.plan, ctrl.signal);
         const c = blankLike(original);
         correctInto(c, original, useReview.getState().working!);
         setHires({ region, original, corrected: c });
@@ -153,7 +162,7 @@ export default function CompareView() {
       clearTimeout(t);
       ctrl.abort();
     };
-  }, [view.scale, view.x, view.y, px, scan, frameW, size.h]);
+  }, [view.scale, view.x, view.y, px, framed, frameW, size.h]);
 
   // pointer handling: split drag, pan, pinch, white-point pick; wheel zoom
   const pointers = useRef(new Map<number, { x: number; y: number }>());
@@ -257,6 +266,7 @@ export default function CompareView() {
 
   const cursor = picking ? 'crosshair' : layout === 'split' ? 'grab' : 'grab';
   return (
+    <div className="relative h-full w-full">
     <div
       ref={box}
       className="relative h-full min-h-[360px] w-full touch-none select-none overflow-hidden rounded-lg border border-paper-300"
@@ -321,6 +331,26 @@ export default function CompareView() {
           )}
         </Layer>
       </Stage>
+    </div>
+      {layout === 'split' && !holdOriginal && (
+        // the split line from the keyboard: arrows move it by 1 %, Page Up and Page Down by 10 %, Home and End to the edges
+        <label className="absolute bottom-3 left-1/2 flex -translate-x-1/2 items-center gap-2 rounded-md bg-paper-50/90 px-3 py-1.5 text-xs text-ink-700 shadow-sm">
+          <span aria-hidden="true">Split</span>
+          <input
+            type="range"
+            min={0}
+            max={100}
+            step={1}
+            value={Math.round(split * 100)}
+            onChange={(e) => useReview.getState().setSplit(Number(e.target.value) / 100)}
+            onPointerDown={(e) => e.stopPropagation()}
+            aria-label="Split line position"
+            aria-valuetext={`Original on the left ${Math.round(split * 100)} %, corrected on the right ${100 - Math.round(split * 100)} %`}
+            className="w-40 accent-lamp-600"
+            data-split-slider
+          />
+        </label>
+      )}
     </div>
   );
 }

@@ -62,6 +62,8 @@ export interface ItemRow {
   hasThumbnail: boolean;
   /** Why a failed print could not be read, in plain words. */
   failureReason: string | null;
+  /** The print's caption, when it has one. */
+  caption: string | null;
 }
 
 /** A removed batch or print as "Recently removed" lists it. */

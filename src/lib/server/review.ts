@@ -431,45 +431,10 @@ export async function cropImage(item: Item, q: CropQuery): Promise<{ body: Buffe
   return { body, version, region };
 }
 
-/** A batch and its prints as the batch review page shows them; another archive's batch is 404. */
-/** The engine's expected error for a print, after the batch's pooling when there was one. */
-function expectedOf(a: Analysis | null): number | null {
-  const pooled = (a as (Analysis & { pooledResult?: { expectedDeltaE00?: number } }) | null)?.pooledResult?.expectedDeltaE00;
-  const own = a?.expectedDeltaE00;
-  return typeof pooled === 'number' ? pooled : typeof own === 'number' ? own : null;
-}
-
-export async function batchOverview(locals: App.Locals, batchId: string): Promise<{ batch: Batch; rows: ItemRow[] }> {
+/** A batch as the batch review page shows it, if the caller may see it; another archive's batch is 404. Its prints come a page at a time (review-list.ts). */
+export async function batchOverview(locals: App.Locals, batchId: string): Promise<{ batch: Batch }> {
   const batch = await Batch.findByPk(batchId);
   if (!batch) throw new NotFound('That batch');
   requireArchiveRole(locals, batch.archiveId, 'viewer', 'That batch');
-  const items = await Item.findAll({ where: { batchId }, order: [['seq', 'ASC']] });
-  const rows: ItemRow[] = [];
-  for (const it of items) {
-    const a = it.analysis as Analysis | null;
-    rows.push({
-      id: it.id,
-      seq: it.seq,
-      originalName: it.originalName,
-      state: it.state,
-      fadeGrade: it.fadeGrade ?? a?.fadeGrade ?? null,
-      paperBase: a?.paperBase ? { srgb: a.paperBase.srgb, deltaE00: round(a.paperBase.deltaE00FromWhite, 2) } : null,
-      dyes: a?.dyes ? { cyan: a.dyes.cyan.remainingPercent, magenta: a.dyes.magenta.remainingPercent, yellow: a.dyes.yellow.remainingPercent } : null,
-      dyeLoss: typeof a?.dyeLoss === 'number' ? a.dyeLoss : null,
-      expectedDeltaE00: expectedOf(a),
-      rescanAdvised: Boolean(a?.rescanAdvised),
-      decision: it.decision ?? null,
-      decidedByName: (await nameOf(it.decidedBy))?.name ?? null,
-      negativeLocation: it.negativeLocation ?? null,
-      lockVersion: it.lockVersion,
-      hasThumbnail: Boolean(it.thumbKey),
-      failureReason: it.state === 'failed' ? (it.failureReason ?? null) : null,
-    });
-  }
-  return { batch, rows };
-}
-
-function round(x: number, digits: number) {
-  const f = 10 ** digits;
-  return Math.round(x * f) / f;
+  return { batch };
 }

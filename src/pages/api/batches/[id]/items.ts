@@ -1,17 +1,23 @@
-import { ITEM_STATES, type ItemState } from '../../../../lib/batches/schemas.ts';
 import { idParam } from '../../../../lib/server/access.ts';
-import { batchForCaller, listItems, listItemStates } from '../../../../lib/server/batches.ts';
-import { InvalidInput } from '../../../../lib/server/errors.ts';
-import { apiRoute, json } from '../../../../lib/server/http.ts';
+import { batchForCaller, listItemStates } from '../../../../lib/server/batches.ts';
+import { apiRoute, json, parseInput } from '../../../../lib/server/http.ts';
+import { listItemsPage, listRowsPage, matchingIds } from '../../../../lib/server/review-list.ts';
+import { listQuery, searchParamsToObject } from '../../../../lib/review/listing.ts';
 
 /**
- * A batch's items in scan order with their analysis and download links; `?state=` filters;
- * `?brief=1` gives only id, seq, name, state and failure reason (what the upload page polls).
+ * A batch's items, one page at a time (`page`, `per`: 100 by default, at most 500; the answer's
+ * `next` is the address of the following page, `total` how many match). `q` searches captions,
+ * places, the back of the print, the envelope, file names, dates and people (every word must be
+ * found); `state`, `decision` (or `undecided`), `grade` and `missing` (caption, date, people)
+ * filter; `sort` orders. `view=rows` answers in the batch table's shape with the batch's tally,
+ * `view=ids` every match's id and lockVersion unpaged. `?brief=1` gives every item's id, seq,
+ * name, state and failure reason (what the upload page polls).
  */
 export const GET = apiRoute(async ({ locals, params, url }) => {
   const batch = await batchForCaller(locals, idParam(params.id, 'That batch'), 'viewer');
-  const state = url.searchParams.get('state');
-  if (state && !(ITEM_STATES as readonly string[]).includes(state)) throw new InvalidInput(`state must be one of ${ITEM_STATES.join(', ')}.`, { state: 'Unknown state.' });
   if (url.searchParams.has('brief')) return json({ batchId: batch.id, items: await listItemStates(batch.id) });
-  return json({ batchId: batch.id, items: await listItems(batch.id, (state as ItemState) || undefined) });
+  const q = parseInput(listQuery, searchParamsToObject(url.searchParams));
+  if (q.view === 'ids') return json({ batchId: batch.id, items: await matchingIds(batch.id, q) });
+  if (q.view === 'rows') return json(await listRowsPage(batch.id, q));
+  return json(await listItemsPage(batch.id, q));
 });
