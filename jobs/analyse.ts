@@ -25,6 +25,7 @@ import { removeStaleTemporaries } from '../src/lib/server/stale-files.ts';
 import { config } from '../src/lib/server/config.ts';
 import { eachAtMost, oneAtATime } from './each-at-most.ts';
 import { enginePool } from './engine-pool.ts';
+import { requeueInterrupted, WORKER_ID } from './presence.ts';
 import type { JobHandler } from './registry.ts';
 
 /** How a print whose scan cannot be decoded cleanly (corrupt or cut short) is marked, before the reason. */
@@ -44,11 +45,11 @@ export async function settleIfDone(batchId: string): Promise<void> {
 async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<void> {
   // Claimed in one statement: only a queued item, or one whose earlier run was cut short.
   const [claimed] = await db().query<{ id: string; batch_id: string; original_id: string; storage_key: string }>(
-    `UPDATE items i SET state = 'analysing', failure_reason = NULL, updated_at = now()
+    `UPDATE items i SET state = 'analysing', failure_reason = NULL, analysing_by = :worker, updated_at = now()
        FROM originals o
       WHERE i.id = :id AND o.id = i.original_id AND i.state IN ('queued', 'analysing')
     RETURNING i.id, i.batch_id, i.original_id, o.storage_key`,
-    { replacements: { id: job.data.itemId }, type: QueryTypes.SELECT },
+    { replacements: { id: job.data.itemId, worker: WORKER_ID }, type: QueryTypes.SELECT },
   );
   if (!claimed) return;
   const item = { id: claimed.id, batchId: claimed.batch_id, originalId: claimed.original_id };
@@ -81,7 +82,7 @@ async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<voi
     await db()
       .query(
         `WITH done AS (
-           UPDATE items SET state = 'ready', failure_reason = NULL, analysis = :analysis::jsonb, fade_grade = :grade,
+           UPDATE items SET state = 'ready', failure_reason = NULL, analysing_by = NULL, analysis = :analysis::jsonb, fade_grade = :grade,
                   current_version = :version, thumb_key = :thumb, preview_key = :preview, preview_version = :version, updated_at = now()
             WHERE id = :id AND state = 'analysing' AND original_id = :originalId
            RETURNING id)
@@ -131,6 +132,8 @@ async function sweep(): Promise<void> {
   const boss = (await queue()) as PgBoss & { expire?: () => Promise<void> };
   await boss.expire?.();
   await removeStaleTemporaries();
+  // analyses a worker that died left half done: queued again at once, not after their lease
+  await requeueInterrupted();
   const stranded = await db().query<{ id: string; pixels: number | null; batch_id: string; state: string }>(
     `SELECT i.id, i.batch_id, i.state, (o.width::bigint * o.height) AS pixels
        FROM items i JOIN originals o ON o.id = i.original_id

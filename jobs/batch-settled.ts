@@ -4,11 +4,13 @@
  *    from the same box or drawer, as far as its own is unsure; where that changes the proposal, a 'pooled'
  *    correction version is added (jobs/render.ts renders it, as it does every version without a render).
  * 2. Whoever created the batch gets one e-mail with the counts and a link (finished_notified_at).
- * Both wait until no scan has been added for BATCH_QUIET_SECONDS (the job puts itself off until then).
+ * Both wait until the batch has been quiet for BATCH_QUIET_SECONDS (the job puts itself off until then):
+ * no scan added, no upload request started or ended, no worker started. A worker that starts queues
+ * again the analyses a stopped worker left half done (jobs/presence.ts), so the counts are whole.
  * The batch row is locked throughout, so however many of these jobs arrive, the work is done once.
  */
 import type PgBoss from 'pg-boss';
-import { Op } from 'sequelize';
+import { Op, QueryTypes } from 'sequelize';
 import { Batch, Correction, Item, User, db } from '../db/index.ts';
 import { poolAnalyses, type Analysis } from '../src/lib/restoration/analysis.ts';
 import { sameCorrection } from '../src/lib/restoration/correction.ts';
@@ -16,6 +18,7 @@ import { stateCounts } from '../src/lib/server/batches.ts';
 import { config } from '../src/lib/server/config.ts';
 import { linkMail, sendMail } from '../src/lib/server/mailer.ts';
 import { BATCH_QUIET_SECONDS, BATCH_SETTLED_QUEUE, enqueueBatchSettled, type BatchSettledJob } from '../src/lib/server/processing.ts';
+import { PRESENCE_PREFIX } from './presence.ts';
 import type { JobHandler } from './registry.ts';
 
 /** The print's own measurement: the analysis as stored, without an earlier pooling note. */
@@ -33,9 +36,17 @@ async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
     if (!batch) return;
     const counts = (await stateCounts([batch.id])).get(batch.id)!;
     if (counts.total === 0 || counts.queued > 0 || counts.analysing > 0) return;
-    const newest = await Item.max<Date, Item>('createdAt', { where: { batchId: batch.id }, transaction });
-    const quietFor = newest ? (Date.now() - new Date(newest).getTime()) / 1000 : Infinity;
-    if (quietFor < BATCH_QUIET_SECONDS) {
+    // Quiet since the latest of: the newest scan, the last upload request (one in flight or being
+    // retried adds no item yet), and the start of the newest worker (after a stop, uploads cut off
+    // with it get the time to come back). On PostgreSQL's clock, which every process shares.
+    const [{ quiet_for: quietFor }] = await db().query<{ quiet_for: number | null }>(
+      `SELECT extract(epoch FROM now() - greatest(
+                (SELECT max(created_at) FROM items WHERE batch_id = :batchId),
+                (SELECT last_upload_at FROM batches WHERE id = :batchId),
+                (SELECT max(backend_start) FROM pg_stat_activity WHERE application_name LIKE :presence)))::float8 AS quiet_for`,
+      { replacements: { batchId: batch.id, presence: `${PRESENCE_PREFIX}%` }, type: QueryTypes.SELECT, transaction },
+    );
+    if (quietFor !== null && quietFor < BATCH_QUIET_SECONDS) {
       putOff = BATCH_QUIET_SECONDS - quietFor;
       return;
     }

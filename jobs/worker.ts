@@ -13,6 +13,7 @@ import { startRenderFeeder } from './render.ts';
 import { oneAtATime } from './each-at-most.ts';
 import { reconcileOriginals } from '../src/lib/server/reconcile.ts';
 import { schedulePurge } from './purge-removed.ts';
+import { requeueInterrupted, startPresence, stopPresence } from './presence.ts';
 
 sharp.cache(false);
 
@@ -35,6 +36,8 @@ process.on('unhandledRejection', (reason) => {
   process.exit(1);
 });
 const c = config();
+// present before any item is claimed, so no other worker takes this one's analyses for a dead worker's
+await startPresence();
 const boss = await queue();
 /**
  * One polling loop of a queue. pg-boss waits out the rest of its polling interval (0.5 s at least)
@@ -54,6 +57,9 @@ for (const h of HANDLERS) {
   for (let i = 0; i < (h.concurrency?.(c) ?? 1); i++) await loop(h);
 }
 startRenderFeeder();
+// Analyses a worker cut short (killed, or the machine stopped) are queued again now, not when their
+// lease runs out; batch-settled measures its quiet period from this start too (jobs/batch-settled.ts).
+await requeueInterrupted();
 // Originals an upload cut short by a database outage left without a row: listed and logged, at
 // start and every few minutes (src/lib/server/reconcile.ts).
 const reconcile = oneAtATime('reconcile storage', () => reconcileOriginals().then(() => undefined));
@@ -67,6 +73,7 @@ async function shutdown() {
   if (stopping) return;
   stopping = true;
   await stopQueue();
+  await stopPresence();
   await closeDb();
   process.exit(0);
 }

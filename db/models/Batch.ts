@@ -16,6 +16,8 @@ export class Batch extends Model<InferAttributes<Batch>, InferCreationAttributes
   declare notes: CreationOptional<string>;
   declare createdBy: string | null;
   declare finishedNotifiedAt: CreationOptional<Date | null>;
+  /** When an upload request into the batch last started or ended (the batch is not quiet while uploads go on). */
+  declare lastUploadAt: CreationOptional<Date | null>;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
   /** When the batch was removed (with its prints): restorable for 30 days, then purged. */
@@ -34,6 +36,7 @@ export class Batch extends Model<InferAttributes<Batch>, InferCreationAttributes
         notes: { type: DataTypes.TEXT, allowNull: false, defaultValue: '' },
         createdBy: DataTypes.UUID,
         finishedNotifiedAt: DataTypes.DATE,
+        lastUploadAt: DataTypes.DATE,
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
         deletedAt: DataTypes.DATE,

@@ -44,6 +44,10 @@ export class Item extends Model<InferAttributes<Item>, InferCreationAttributes<I
   declare lockVersion: CreationOptional<number>;
   /** Which upload (one drop of files) brought the print in: its prints are numbered by file name. */
   declare uploadKey: CreationOptional<string | null>;
+  /** The worker holding the item in analysis (jobs/presence.ts), so one that starts can tell a dead worker's. */
+  declare analysingBy: CreationOptional<string | null>;
+  /** How often its analysis was cut short by its worker's death. */
+  declare interruptions: CreationOptional<number>;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
   /** When the print was removed: it stays restorable for 30 days, then the purge deletes it. */
@@ -85,6 +89,8 @@ export class Item extends Model<InferAttributes<Item>, InferCreationAttributes<I
         metadataUpdatedAt: DataTypes.DATE,
         lockVersion: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
         uploadKey: DataTypes.STRING(64),
+        analysingBy: DataTypes.STRING(64),
+        interruptions: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
         deletedAt: DataTypes.DATE,

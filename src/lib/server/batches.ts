@@ -120,6 +120,17 @@ export async function batchForCaller(locals: App.Locals, batchId: string, role: 
   return batch;
 }
 
+/**
+ * Records that an upload request into the batch started or ended, whatever its outcome: the batch
+ * is not quiet (nor its "batch finished" e-mail due) while uploads go on. Written at most once a
+ * second per batch, so concurrent uploads do not queue on the batch row.
+ */
+export async function noteUploadActivity(batchId: string): Promise<void> {
+  await db().query(`UPDATE batches SET last_upload_at = now() WHERE id = :batchId AND (last_upload_at IS NULL OR last_upload_at < now() - interval '1 second')`, {
+    replacements: { batchId },
+  });
+}
+
 /** A batch's status: the summary with its counts per state. */
 export async function batchStatus(batch: Batch): Promise<BatchSummary> {
   const counts = await stateCounts([batch.id]);

@@ -20,12 +20,20 @@ export interface UploadRecord {
 
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
+/** What a test may follow of {@link uploadRetrying} while it runs. */
+export interface UploadWatch {
+  /** The number of files stored so far. */
+  onStored?: (n: number) => void;
+  /** An attempt failed on the network (refused, reset): the server is away. */
+  onNetworkError?: () => void;
+}
+
 /**
  * Uploads every file `atOnce` at a time; a file whose request failed (connection refused or reset,
  * a 5xx) is sent again until the server answers 201 (added) or 200 (the same bytes already
- * stored: the earlier attempt got through before the answer was lost). `onStored` sees the count.
+ * stored: the earlier attempt got through before the answer was lost).
  */
-export async function uploadRetrying(client: Client, batchId: string, files: { name: string; bytes: Buffer }[], atOnce: number, onStored?: (n: number) => void, deadlineMs = 150_000): Promise<UploadRecord[]> {
+export async function uploadRetrying(client: Client, batchId: string, files: { name: string; bytes: Buffer }[], atOnce: number, watch: UploadWatch = {}, deadlineMs = 150_000): Promise<UploadRecord[]> {
   const records: UploadRecord[] = files.map((f) => ({ name: f.name, sha256: sha256(f.bytes), attempts: [] }));
   const deadline = Date.now() + deadlineMs;
   let next = 0;
@@ -47,14 +55,32 @@ export async function uploadRetrying(client: Client, batchId: string, files: { n
           } catch (err) {
             if (/was refused/.test(String((err as Error).message))) throw err;
             records[i].attempts.push(`network: ${String((err as Error & { cause?: { code?: string } }).cause?.code ?? (err as Error).message)}`);
+            watch.onNetworkError?.();
           }
           await sleep(250);
         }
-        onStored?.(++stored);
+        watch.onStored?.(++stored);
       }
     }),
   );
   return records;
+}
+
+/** The messages the stack's mail fake caught (storage/outbox/*.json), oldest first. */
+export function caughtMail(stack: IsolatedStack): { to: string[]; subject: string; text: string }[] {
+  const dir = path.join(stack.storageDir, 'outbox');
+  if (!fs.existsSync(dir)) return [];
+  return fs
+    .readdirSync(dir)
+    .filter((f) => f.endsWith('.json'))
+    .sort()
+    .flatMap((f) => {
+      try {
+        return [JSON.parse(fs.readFileSync(path.join(dir, f), 'utf8'))];
+      } catch {
+        return []; // being written: seen on the next look
+      }
+    });
 }
 
 /** Files left in the store's temporary folders (half-written uploads and renders). */

@@ -9,7 +9,7 @@ import { Client } from '../../support/http.ts';
 import { createBatch, generatedScans, sha256, upload, uploadAll, waitFullSize, waitSettled } from '../../support/scans.ts';
 import PgBoss from 'pg-boss';
 import { QueryTypes } from 'sequelize';
-import { BATCH_SETTLED_QUEUE, RENDER_QUIET_SECONDS } from '../../../src/lib/server/processing.ts';
+import { BATCH_QUIET_SECONDS, BATCH_SETTLED_QUEUE, RENDER_QUIET_SECONDS } from '../../../src/lib/server/processing.ts';
 import { until } from '../../support/until.ts';
 
 let a: TestArchive;
@@ -87,11 +87,9 @@ describe('batch ingest through the API', () => {
     expect(proposed).toBe(40);
 
     // The creator hears about it once (the mail fake's outbox), after the batch has been quiet for BATCH_QUIET_SECONDS.
-    let mails: Awaited<ReturnType<typeof listOutbox>> = [];
-    for (let i = 0; i < 120 && mails.length === 0; i++) {
-      mails = (await listOutbox()).filter((m) => m.to.includes(a.editor.email) && m.subject.includes('Forty generated prints'));
-      if (mails.length === 0) await new Promise((r) => setTimeout(r, 500));
-    }
+    const forty = async () => (await listOutbox()).filter((m) => m.to.includes(a.editor.email) && m.subject.includes('Forty generated prints'));
+    await until('the batch finished e-mail', async () => (await forty()).length > 0, 60_000);
+    const mails = await forty();
     expect(mails).toHaveLength(1);
     expect(mails[0].text).toContain('40 ready for review');
     expect(mails[0].text).toContain(`/batches/${batchId}`);
@@ -115,15 +113,51 @@ describe('batch ingest through the API', () => {
     const [first, second] = await generatedScans(2, 800);
     expect((await upload(owner, batchId, 'first.jpg', first.bytes)).status).toBe(201);
     await waitSettled(owner, batchId);
-    await new Promise((r) => setTimeout(r, 4000));
-    expect((await upload(owner, batchId, 'second.jpg', second.bytes)).status).toBe(201);
-    await waitSettled(owner, batchId);
+
+    // The second scan comes over a slow link: a few bytes every half second (the pace of the link,
+    // not a wait for the product), until the batch has gone BATCH_QUIET_SECONDS without a new print
+    // and a settling job has looked at it since. Only an upload still arriving holds the mail back then.
+    let finish = false;
+    let sent = 0;
+    const body = new ReadableStream<Uint8Array>({
+      async pull(ctl) {
+        if (finish) {
+          ctl.enqueue(second.bytes.subarray(sent));
+          ctl.close();
+          return;
+        }
+        await new Promise((r) => setTimeout(r, 500));
+        const piece = second.bytes.subarray(sent, Math.min(sent + 64, second.bytes.length - 1));
+        sent += piece.length;
+        ctl.enqueue(piece);
+      },
+    });
+    const slow = owner.request('POST', `/api/batches/${batchId}/files`, { body, headers: { 'content-type': 'application/octet-stream', 'x-file-name': 'second.jpg' } });
+    // pg-boss's job table, read by the test only: a settling job of this batch completed past the quiet period
+    await until(
+      'a settling job to have run after the first print had been quiet for the quiet period',
+      async () =>
+        (
+          await db().query<{ n: string }>(
+            `SELECT count(*) AS n FROM pgboss.job WHERE name = :queue AND data->>'batchId' = :batchId AND state = 'completed'
+                AND completed_on > (SELECT max(created_at) FROM items WHERE batch_id = :batchId) + make_interval(secs => :quiet)`,
+            { replacements: { queue: BATCH_SETTLED_QUEUE.name, batchId, quiet: BATCH_QUIET_SECONDS }, type: QueryTypes.SELECT },
+          )
+        )[0].n !== '0',
+      120_000,
+    );
     const mine = async () => (await listOutbox()).filter((m) => m.to.includes(a.owner.email) && m.subject.includes('Slow sitting'));
-    for (let i = 0; i < 120 && (await mine()).length === 0; i++) await new Promise((r) => setTimeout(r, 500));
+    expect(await mine(), 'no mail while a scan is still arriving').toHaveLength(0);
+    expect(sent).toBeLessThan(second.bytes.length);
+    finish = true;
+    expect((await slow).status).toBe(201);
+
+    await waitSettled(owner, batchId);
+    await until('the batch finished e-mail', async () => (await mine()).length > 0, 90_000);
     const mails = await mine();
     expect(mails).toHaveLength(1);
     expect(mails[0].text).toContain('All 2 scans');
-  }, 120_000);
+  }, 240_000);
 
   it('stores the same file once: a second upload is linked to the first item and reported', async () => {
     const editor = asToken(a.editor);

@@ -1,7 +1,7 @@
 import { FILE_NAME_HEADER } from '../../../../lib/batches/schemas.ts';
 import { ScanRejected } from '../../../../lib/restoration/errors.ts';
 import { idParam } from '../../../../lib/server/access.ts';
-import { batchForCaller } from '../../../../lib/server/batches.ts';
+import { batchForCaller, noteUploadActivity } from '../../../../lib/server/batches.ts';
 import { InvalidInput, TooLarge } from '../../../../lib/server/errors.ts';
 import { apiRoute, errorResponse, json } from '../../../../lib/server/http.ts';
 import { ingestScan, uploadLimits } from '../../../../lib/server/ingest.ts';
@@ -25,6 +25,19 @@ function fileName(request: Request): string {
   }
 }
 
+/** While a body keeps coming, `note` is called every few seconds (a large scan over a slow link takes minutes). */
+async function* notingActivity(body: AsyncIterable<Uint8Array>, note: () => Promise<void>): AsyncIterable<Uint8Array> {
+  let noted = Date.now();
+  for await (const chunk of body) {
+    if (Date.now() - noted >= NOTE_EVERY_MS) {
+      noted = Date.now();
+      void note().catch(() => undefined);
+    }
+    yield chunk;
+  }
+}
+const NOTE_EVERY_MS = 5000;
+
 /**
  * Uploads one scan into a batch: the raw file is the request body (any content type; the bytes
  * decide), its name in the X-File-Name header. Streamed to storage, never held in memory.
@@ -32,6 +45,16 @@ function fileName(request: Request): string {
  */
 export const POST = apiRoute(async ({ locals, params, request }) => {
   const batch = await batchForCaller(locals, idParam(params.id, 'That batch'), 'editor');
+  await noteUploadActivity(batch.id);
+  try {
+    return await receiveScan(batch, locals, request);
+  } finally {
+    // a long upload, or one refused late, counts until it ends
+    await noteUploadActivity(batch.id).catch(() => undefined);
+  }
+});
+
+async function receiveScan(batch: { id: string; archiveId: string }, locals: App.Locals, request: Request): Promise<Response> {
   const name = fileName(request);
   const group = uploadKey(request);
   const declared = Number(request.headers.get('content-length') ?? NaN);
@@ -41,7 +64,8 @@ export const POST = apiRoute(async ({ locals, params, request }) => {
   // A refusal part-way (full disk, over the limit) reads the rest away first, so the client hears it.
   const upload = drainingBody(request.body, limits.maxBytes);
   try {
-    const result = await ingestScan({ archiveId: batch.archiveId, batchId: batch.id, userId: locals.user!.id, name, body: upload.body, requestId: locals.requestId, uploadKey: group });
+    const body = notingActivity(upload.body, () => noteUploadActivity(batch.id));
+    const result = await ingestScan({ archiveId: batch.archiveId, batchId: batch.id, userId: locals.user!.id, name, body, requestId: locals.requestId, uploadKey: group });
     if (result.outcome === 'duplicate') return json(result, 200);
     return json(result, 201, { location: `/api/items/${result.item.id}` });
   } catch (err) {
@@ -49,4 +73,4 @@ export const POST = apiRoute(async ({ locals, params, request }) => {
     if (err instanceof ScanRejected) return errorResponse(err.status, err.code, err.message, { file: name });
     throw err;
   }
-});
+}
