@@ -57,7 +57,7 @@ describe('the items of a batch, a page at a time', () => {
     let next: string | null = `/api/batches/${batchId}/items?per=2`;
     let pages = 0;
     while (next) {
-      const r = await editor.get(next);
+      const r: { status: number; text: string; body: any } = await editor.get(next);
       expect(r.status, r.text).toBe(200);
       expect(r.body.items.length).toBeLessThanOrEqual(2);
       expect(r.body).toMatchObject({ total: 5, per: 2, pages: 3, page: pages + 1 });
