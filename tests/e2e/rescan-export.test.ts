@@ -69,6 +69,11 @@ describe('the rescan list in the browser', () => {
     await page.emulateMedia({ media: 'print' });
     expect(await page.locator('[data-csv-link]').isVisible()).toBe(false);
     expect(await row.isVisible()).toBe(true);
+    // the printed list has the print's thumbnail, loaded, to match print and negative at the cupboard
+    const thumb = row.locator('img[data-rescan-thumbnail]');
+    expect(await thumb.isVisible()).toBe(true);
+    await page.waitForFunction((id) => ((document.querySelector(`[data-rescan-item="${id}"] img`) as HTMLImageElement | null)?.naturalWidth ?? 0) > 0, items[0]);
+    expect(await row.innerText()).toContain('Box: Shoebox 1');
     await snap(page, 'rescan-01-list-print-view');
     await page.emulateMedia({ media: 'screen' });
   });

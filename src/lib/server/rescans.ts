@@ -6,6 +6,7 @@
 import type { Readable } from 'node:stream';
 import { QueryTypes } from 'sequelize';
 import { Correction, Item, Original, db } from '../../../db/index.ts';
+import { sourceInWords } from '../archive/source.ts';
 import { recordAudit } from './audit.ts';
 import { printForCaller } from './captions.ts';
 import { Conflict, NotFound } from './errors.ts';
@@ -113,7 +114,7 @@ export function rescanCsvRecord(r: RescanRow): string[] {
   const kept = { yes: 'yes', no: 'no', unknown: 'not known' }[r.negativeAvailable ?? 'unknown'];
   return [
     r.batchName,
-    [r.sourceKind, r.sourceLabel].filter(Boolean).join(' '),
+    sourceInWords(r.sourceKind, r.sourceLabel) ?? '',
     String(r.seq),
     r.originalName,
     kept,
