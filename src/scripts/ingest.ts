@@ -4,7 +4,9 @@
  *   npm run ingest -- --item <id> [--as <email>] <file>   (a rescan from the negative)
  * With --watch it keeps going as a scanner writes new files, taking each one only once its size
  * has stopped changing. The batch is made when it does not exist yet. Progress goes to stdout,
- * one line per file; refused files are reported with their reason and make the exit status 1.
+ * one line per file; refused files are reported with their reason and make the exit status 1;
+ * entries that are not taken (hidden files and folders, links, pipes, the system's own files) get
+ * one "skipped" line each, saying why.
  */
 import { randomUUID } from 'node:crypto';
 import { createReadStream } from 'node:fs';
@@ -35,8 +37,6 @@ const USAGE = `Usage: npm run ingest -- --archive <slug> --batch <name> [--as <e
                         the current image and the print scan is kept
   --help                show this text`;
 
-/** Files that are never scans: the scanner's and the operating system's own. */
-const SKIP = /(^|[\\/])(\.[^\\/]*|Thumbs\.db|desktop\.ini)$/i;
 const AT_A_TIME = 2;
 
 class UsageError extends Error {}
@@ -84,15 +84,42 @@ async function actingUser(archiveId: string, email: string | undefined): Promise
   return user;
 }
 
-async function listFiles(dir: string): Promise<string[]> {
+/** The kind of a folder entry, as a directory listing or lstat tells it. */
+interface EntryKind {
+  isFile(): boolean;
+  isDirectory(): boolean;
+  isSymbolicLink(): boolean;
+  isFIFO(): boolean;
+  isSocket(): boolean;
+}
+
+/**
+ * Why an entry is not taken as a scan, in plain words, or null when it is a file to take (or a
+ * folder to look into). Links are not followed: a link could lead outside the folder, or round in a loop.
+ */
+function skipReason(name: string, kind?: EntryKind): string | null {
+  const base = basename(name);
+  if (/^(Thumbs\.db|desktop\.ini)$/i.test(base)) return "the system's own file, not a scan";
+  if (base.startsWith('.')) return !kind ? 'hidden (its name starts with a dot)' : kind.isDirectory() ? 'a hidden folder (nothing in it is taken)' : 'a hidden file';
+  if (!kind) return null;
+  if (kind.isSymbolicLink()) return 'a link to another place (links are not followed: copy the scan itself into the folder)';
+  if (kind.isFIFO()) return 'a pipe (FIFO), not a file';
+  if (kind.isSocket()) return 'a socket, not a file';
+  if (!kind.isFile() && !kind.isDirectory()) return 'a device, not a file';
+  return null;
+}
+
+/** Every file to take under `dir`, in natural order; `skipped` hears each entry left out, and why. */
+async function listFiles(dir: string, skipped: (path: string, reason: string) => void): Promise<string[]> {
   const out: string[] = [];
   const walk = async (d: string) => {
     const entries = (await readdir(d, { withFileTypes: true })).sort((a, b) => a.name.localeCompare(b.name, undefined, { numeric: true }));
     for (const e of entries) {
       const p = join(d, e.name);
-      if (SKIP.test(e.name)) continue;
-      if (e.isDirectory()) await walk(p);
-      else if (e.isFile()) out.push(p);
+      const reason = skipReason(e.name, e);
+      if (reason) skipped(p, reason);
+      else if (e.isDirectory()) await walk(p);
+      else out.push(p);
     }
   };
   await walk(dir);
@@ -139,8 +166,16 @@ async function main(): Promise<number> {
     console.log(`made the batch "${batch.name}" in ${archive.name}`);
   }
   const target = batch;
-  const tally = { added: 0, duplicate: 0, refused: 0 };
+  const tally = { added: 0, duplicate: 0, refused: 0, skipped: 0 };
   const done = new Set<string>();
+  const skipped = new Set<string>();
+  const skip = (path: string, reason: string) => {
+    if (skipped.has(path)) return;
+    skipped.add(path);
+    tally.skipped++;
+    console.log(`skipped    ${relative(opts.folder, path).split('\\').join('/')}: ${reason}`);
+  };
+  const skippedText = () => (tally.skipped ? `, ${tally.skipped} skipped (not scans)` : '');
   // one run is one upload: its prints are numbered by file name
   const uploadKey = randomUUID();
 
@@ -185,21 +220,28 @@ async function main(): Promise<number> {
     }
   };
   const add = (p: string) => {
-    if (SKIP.test(p) || done.has(p) || queue.includes(p)) return;
+    if (done.has(p) || queue.includes(p)) return;
     queue.push(p);
     pump();
   };
 
   if (!opts.watch) {
-    for (const p of await listFiles(opts.folder)) add(p);
+    for (const p of await listFiles(opts.folder, skip)) add(p);
     if (running > 0) await new Promise<void>((r) => (idle = r));
-    console.log(`${tally.added} added, ${tally.duplicate} already in the archive, ${tally.refused} refused; the worker analyses them now.`);
+    console.log(`${tally.added} added, ${tally.duplicate} already in the archive, ${tally.refused} refused${skippedText()}; the worker analyses them now.`);
     return tally.refused > 0 ? 1 : 0;
   }
 
   console.log(`watching ${opts.folder} for new scans into "${target.name}" (Ctrl-C to stop)`);
   const watcher = watch(opts.folder, {
-    ignored: (p) => SKIP.test(p),
+    ignored: (p, stats) => {
+      if (p === opts.folder) return false;
+      // asked by name alone first (no stats yet), then with the entry's lstat
+      const reason = skipReason(p, stats);
+      if (reason) skip(p, reason);
+      return reason !== null;
+    },
+    followSymlinks: false,
     // A scanner writes a file over a few seconds: take it once its size has held for 2 s.
     awaitWriteFinish: { stabilityThreshold: 2000, pollInterval: 250 },
     alwaysStat: false,
@@ -213,7 +255,7 @@ async function main(): Promise<number> {
   });
   await watcher.close();
   if (running > 0) await new Promise<void>((r) => (idle = r));
-  console.log(`stopped: ${tally.added} added, ${tally.duplicate} already in the archive, ${tally.refused} refused.`);
+  console.log(`stopped: ${tally.added} added, ${tally.duplicate} already in the archive, ${tally.refused} refused${skippedText()}.`);
   return 0;
 }
 

@@ -1,5 +1,5 @@
-import { spawn } from 'node:child_process';
-import { mkdtempSync, mkdirSync, openSync, writeSync, closeSync, writeFileSync, rmSync } from 'node:fs';
+import { execFileSync, spawn } from 'node:child_process';
+import { mkdtempSync, mkdirSync, openSync, writeSync, closeSync, writeFileSync, rmSync, symlinkSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -57,6 +57,42 @@ describe('npm run ingest', () => {
     expect(names.filter((n) => !n.startsWith('left/'))).toHaveLength(1);
     const status = await waitSettled(asToken(a.editor), batch.id);
     expect(status.counts).toMatchObject({ ready: 3, total: 3 });
+  }, 120_000);
+
+  it("says which entries it skipped and why, one line each: hidden files and folders, links, pipes, the system's own files", async () => {
+    const folder = join(dir, 'sideboard');
+    mkdirSync(join(folder, '.thumbnails'), { recursive: true });
+    const scans = await generatedScans(3, 6100);
+    writeFileSync(join(folder, scans[0].name), scans[0].bytes);
+    // a scan outside the folder, reached only through a link
+    const outside = join(dir, 'outside-the-folder.jpg');
+    writeFileSync(outside, scans[1].bytes);
+    symlinkSync(outside, join(folder, 'linked.jpg'));
+    writeFileSync(join(folder, '.thumbnails', scans[2].name), scans[2].bytes);
+    writeFileSync(join(folder, '._scan.jpg'), 'resource fork');
+    writeFileSync(join(folder, 'Thumbs.db'), 'cache');
+    execFileSync('mkfifo', [join(folder, 'scanner-pipe')]);
+
+    const run = ingest(['--archive', a.slug, '--batch', 'Sideboard', folder]);
+    const code = await run.done;
+    const out = run.output();
+    expect(code, out).toBe(0);
+    const skipped = out.split('\n').filter((l) => l.startsWith('skipped'));
+    expect(skipped.sort()).toEqual(
+      [
+        'skipped    .thumbnails: a hidden folder (nothing in it is taken)',
+        'skipped    ._scan.jpg: a hidden file',
+        "skipped    Thumbs.db: the system's own file, not a scan",
+        'skipped    linked.jpg: a link to another place (links are not followed: copy the scan itself into the folder)',
+        'skipped    scanner-pipe: a pipe (FIFO), not a file',
+      ].sort(),
+    );
+    expect(out).toContain('1 added, 0 already in the archive, 0 refused, 5 skipped (not scans)');
+    // Nothing was taken from what it skipped: only the one scan is in the batch and the archive.
+    const batch = (await Batch.findOne({ where: { archiveId: a.id, name: 'Sideboard' } }))!;
+    const items = await Item.findAll({ where: { batchId: batch.id } });
+    expect(items.map((i) => i.originalName)).toEqual([scans[0].name]);
+    for (const other of [scans[1], scans[2]]) expect(await Original.count({ where: { archiveId: a.id, sha256: sha256(other.bytes) } })).toBe(0);
   }, 120_000);
 
   it('refuses --as for a viewer, and an unknown archive, with a usage error', async () => {
