@@ -115,7 +115,13 @@ const handleRequest = async (...[ctx, next]: Parameters<MiddlewareHandler>): Pro
     return withHeaders(ctx.redirect(`/signin?next=${encodeURIComponent(path + url.search)}`, 303), requestId);
   }
 
-  return withHeaders(await next(), requestId);
+  const res = await next();
+  // A path under /api/ that no route answers gets the API's JSON error, not the HTML page for people.
+  if (isApi && res.status === 404 && /text\/html/i.test(res.headers.get('content-type') ?? '')) {
+    await res.body?.cancel().catch(() => undefined);
+    return withHeaders(errorResponse(404, 'not_found', `There is no ${request.method} ${path} in the API.`), requestId);
+  }
+  return withHeaders(res, requestId);
 };
 
 const OUTAGE_PAGE = '<!doctype html><html lang="en"><meta charset="utf-8"><title>Drawerlight: back in a moment</title><p>The database cannot be reached just now; nothing was changed. Reload the page in a few seconds.</p></html>';
