@@ -1,9 +1,9 @@
 /**
  * Serving stored files to a caller whose role has been checked: streamed from storage with the
- * right content type, never from public/, revalidated by ETag.
+ * right content type, never from public/, revalidated by ETag, read only as fast as the client takes it.
  */
-import { Readable } from 'node:stream';
 import { NotFound } from './errors.ts';
+import { pacedBody } from './paced-body.ts';
 import { storage } from './storage.ts';
 
 export function disposition(kind: 'inline' | 'attachment', filename: string): string {
@@ -26,8 +26,8 @@ export async function fileResponse(request: Request, key: string | null | undefi
   if (request.headers.get('if-none-match') === etag) return new Response(null, { status: 304, headers });
   headers['content-length'] = String(st.bytes);
   if (request.method === 'HEAD') return new Response(null, { status: 200, headers });
-  const body = Readable.toWeb(storage().read(key)) as unknown as ReadableStream<Uint8Array>;
-  return new Response(body, { status: 200, headers });
+  // paced to the client: a slow download of a large original must not be read into memory ahead of it
+  return new Response(pacedBody(storage().read(key)), { status: 200, headers });
 }
 
 /** `name.ext` with its extension replaced (for corrected and preview downloads). */
