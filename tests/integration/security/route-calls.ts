@@ -220,6 +220,16 @@ export const ROUTE_CALLS: Record<string, RouteCall> = {
     background: true,
   },
   'POST /api/items/[id]/corrections/[version]/restore': { status: 202, check: (r) => expect(r.body.restoredFrom).toBe(1), background: true },
+  'POST /api/items/[id]/corrections/copies': {
+    request: (c) => ({ json: { to: [c.r.rescanItem] } }),
+    status: 202,
+    check: async (r, c) => {
+      expect(r.body.from.id).toBe(c.r.item);
+      expect(r.body.copied.map((x: { id: string }) => x.id)).toEqual([c.r.rescanItem]);
+      expect((await c.editor.get(`/api/items/${c.r.rescanItem}`)).body.item.currentVersion).toBe(r.body.copied[0].version);
+    },
+    background: true,
+  },
   'GET /api/items/[id]/metadata': { status: 200, check: (r, c) => expect(r.body.id).toBe(c.r.item) },
   'PATCH /api/items/[id]/metadata': {
     request: (c) => ({ json: { caption: `Picnic by the weir, told by the ${c.principal}` } }),

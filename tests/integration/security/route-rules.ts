@@ -72,6 +72,7 @@ export const ROUTE_RULES: Record<string, RouteRule> = {
   'GET /api/items/[id]/corrections': { scope: 'archive', role: 'viewer', params: { id: 'item' } },
   'POST /api/items/[id]/corrections': { scope: 'archive', role: 'editor', params: { id: 'item' } },
   'POST /api/items/[id]/corrections/[version]/restore': { scope: 'archive', role: 'editor', params: { id: 'item', version: 'version' } },
+  'POST /api/items/[id]/corrections/copies': { scope: 'archive', role: 'editor', params: { id: 'item' } },
   'GET /api/items/[id]/metadata': { scope: 'archive', role: 'viewer', params: { id: 'item' } },
   'PATCH /api/items/[id]/metadata': { scope: 'archive', role: 'editor', params: { id: 'item' } },
   'GET /api/items/[id]/suggestions': { scope: 'archive', role: 'viewer', params: { id: 'item' } },
