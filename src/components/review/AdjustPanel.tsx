@@ -1,9 +1,12 @@
 /**
  * The operator's adjustments: how much correction, the white point (picked on the print), one
- * control per dye layer, back to the proposal, save as a new version, and the version history.
+ * control per dye layer, black point, contrast and curves, turn and crop, back to the proposal,
+ * save as a new version, use on other prints, and the version history. Viewers see which version
+ * is current and its history, never controls they cannot use.
  */
 import { dyeGain, GAIN_RANGE } from '../../lib/review/adjust.ts';
 import { DYE_LAYERS } from '../../lib/review/words.ts';
+import { CopyToPrints, FramingControls, ToneControls } from './CorrectionControls.tsx';
 import { useReview } from './store.ts';
 
 const ORIGIN_WORDS: Record<string, string> = {
@@ -29,9 +32,10 @@ export default function AdjustPanel() {
   const busy = useReview((s) => s.busy);
   const canDecide = useReview((s) => s.canDecide);
   const dirty = useReview((s) => s.dirty());
-  const { setStrength, setDyeGain, setPicking, resetToProposed, save, restore } = useReview.getState();
+  const { setStrength, setDyeGain, setPicking, resetToProposed, save } = useReview.getState();
   if (!item || !working) return <section className="card text-sm text-ink-500">No correction to adjust for this print yet.</section>;
   const dyes = item.analysis?.dyes;
+  if (!canDecide) return <Versions />;
 
   return (
     <section className="card space-y-5 p-4" aria-labelledby="adjust-heading" data-adjust-panel>
@@ -97,13 +101,43 @@ export default function AdjustPanel() {
         <p className="text-xs text-ink-500">Each control multiplies what is left of that dye's density: ×1.00 leaves it, ×1.25 brings back a dye kept at 80 %.</p>
       </fieldset>
 
+      <ToneControls />
+
+      <FramingControls />
+
       <div className="flex flex-wrap gap-2">
         <button type="button" className="btn-quiet" onClick={resetToProposed} disabled={!item.proposed}>Back to the proposal (U)</button>
-        {canDecide && (
-          <button type="button" className="btn-primary" onClick={() => void save()} disabled={!dirty || busy} data-save-correction>Save as new version (S)</button>
-        )}
+        <button type="button" className="btn-primary" onClick={() => void save()} disabled={!dirty || busy} data-save-correction>Save as new version (S)</button>
       </div>
 
+      <CopyToPrints />
+
+      <VersionList />
+    </section>
+  );
+}
+
+/** The panel as a viewer sees it: the current version and the history, nothing to change. */
+function Versions() {
+  const item = useReview((s) => s.item)!;
+  return (
+    <section className="card space-y-3 p-4" aria-labelledby="versions-heading" data-versions-panel>
+      <div className="flex items-baseline justify-between">
+        <h2 id="versions-heading" className="text-base">Correction</h2>
+        <span className="text-xs text-ink-500">Version {item.currentVersion ?? '–'}</span>
+      </div>
+      <p className="text-xs text-ink-500">An editor of this archive adjusts the colour; you can suggest a caption, a date and who is in the picture.</p>
+      <VersionList />
+    </section>
+  );
+}
+
+function VersionList() {
+  const item = useReview((s) => s.item)!;
+  const busy = useReview((s) => s.busy);
+  const canDecide = useReview((s) => s.canDecide);
+  const { restore } = useReview.getState();
+  return (
       <details className="text-sm" open={item.corrections.length > 1}>
         <summary className="cursor-pointer font-medium text-ink-700">Versions ({item.corrections.length})</summary>
         <ol className="mt-2 space-y-1" data-versions>
@@ -122,6 +156,5 @@ export default function AdjustPanel() {
           ))}
         </ol>
       </details>
-    </section>
   );
 }

@@ -110,8 +110,10 @@ export default function CompareView() {
   const px = useMemo(() => (loaded && working ? framedCopy(loaded, working) : loaded), [loaded, geometryKey]);
   const framed = useMemo(() => (upright && working ? framedSize(upright.w, upright.h, working) : null), [upright, geometryKey]);
   const scan = framed ? { w: framed.w, h: framed.h } : null;
+  // a new turn or crop is a new frame: fit it again, and fetch its 1:1 regions anew
   useEffect(() => {
-    if (px && working?.geometry !== undefined) useReview.setState((s) => ({ view: { ...s.view, fitted: true } }));
+    setHires(null);
+    useReview.setState((s) => ({ view: { ...s.view, fitted: true } }));
   }, [geometryKey]);
   const frameW = layout === 'split' ? size.w : (size.w - GAP) / 2;
 
@@ -280,6 +282,8 @@ export default function CompareView() {
       data-holding-original={holdOriginal ? 'yes' : 'no'}
       data-hires={hires ? 'yes' : 'no'}
       data-loaded={px ? 'yes' : 'no'}
+      data-corrected-box={scan ? [(layout === 'side' ? frameW + GAP : 0) + view.x, view.y, scan.w * view.scale, scan.h * view.scale].map((v) => v.toFixed(2)).join(',') : undefined}
+      data-framed-size={scan ? `${scan.w}x${scan.h}` : undefined}
       role="img"
       aria-label={`Print ${item?.seq ?? ''}: original ${layout === 'split' ? 'left of the split line, corrected right of it' : 'on the left, corrected on the right'}${holdOriginal ? ' (showing the whole original)' : ''}`}
     >

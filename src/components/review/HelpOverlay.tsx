@@ -1,10 +1,11 @@
 /** The list of keyboard shortcuts, opened with ? and closed with Esc. */
 import { useEffect, useRef } from 'react';
 import { SHORTCUTS } from '../../lib/review/words.ts';
-import { useReview } from './store.ts';
+import { EDITING_ACTIONS, useReview } from './store.ts';
 
 export default function HelpOverlay() {
   const open = useReview((s) => s.helpOpen);
+  const canDecide = useReview((s) => s.canDecide);
   const close = useRef<HTMLButtonElement>(null);
   useEffect(() => {
     if (open) close.current?.focus();
@@ -19,7 +20,7 @@ export default function HelpOverlay() {
         </div>
         <table className="mt-3 w-full text-sm">
           <tbody>
-            {SHORTCUTS.map((s) => (
+            {SHORTCUTS.filter((s) => canDecide || !EDITING_ACTIONS.has(s.action)).map((s) => (
               <tr key={s.action} className="border-t border-paper-200">
                 <td className="w-32 py-1.5 pr-3"><kbd className="rounded border border-paper-300 px-1 text-[11px] font-normal opacity-80">{s.label}</kbd></td>
                 <td className="py-1.5 text-ink-700">{s.words}</td>

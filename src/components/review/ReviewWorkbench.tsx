@@ -9,7 +9,7 @@ import AdjustPanel from './AdjustPanel.tsx';
 import CompareView from './CompareView.tsx';
 import DecisionBar from './DecisionBar.tsx';
 import HelpOverlay from './HelpOverlay.tsx';
-import { useReview, type QueueEntry } from './store.ts';
+import { EDITING_ACTIONS, useReview, type QueueEntry } from './store.ts';
 
 interface Props {
   item: ItemDetail;
@@ -27,6 +27,7 @@ function typing(target: EventTarget | null): boolean {
 
 function run(action: ShortcutAction) {
   const s = useReview.getState();
+  if (!s.canDecide && EDITING_ACTIONS.has(action)) return;
   switch (action) {
     case 'accept': return void s.decide('accepted');
     case 'acceptAdjusted': return void s.decide('accepted_adjusted');

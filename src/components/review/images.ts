@@ -4,6 +4,9 @@
  * preview: it is rendered here from these pixels with the engine's own tables.
  */
 
+import { geometryPlan, hasGeometry, identityCorrection, type Correction, type GeometryPlan } from '../../lib/restoration/correction.ts';
+import { previewGeometry, uprightRect } from '../../lib/review/adjust.ts';
+
 /** Long side of the preview the compare view works on. */
 export const PREVIEW_SIDE = 2048;
 
@@ -69,4 +72,41 @@ export function blankLike(src: LoadedPixels): { canvas: HTMLCanvasElement; ctx: 
   canvas.height = src.height;
   const ctx = canvas.getContext('2d')!;
   return { canvas, ctx, out: ctx.createImageData(src.width, src.height) };
+}
+
+/**
+ * The original as the correction frames it: turned and cropped by the correction's geometry (the
+ * engine's own pixel copy), on a canvas of its own; `src` itself when there is no geometry. The
+ * compare view shows both halves framed alike, so the split still lines up.
+ */
+export function framedCopy(src: LoadedPixels, c: Correction): LoadedPixels {
+  if (!hasGeometry(c)) return src;
+  const turned = previewGeometry(src.pixels.data, src.width, src.height, c);
+  const canvas = document.createElement('canvas');
+  canvas.width = turned.width;
+  canvas.height = turned.height;
+  const ctx = canvas.getContext('2d', { willReadFrequently: true })!;
+  const pixels = ctx.createImageData(turned.width, turned.height);
+  pixels.data.set(turned.data);
+  ctx.putImageData(pixels, 0, 0);
+  return { canvas, pixels, width: turned.width, height: turned.height };
+}
+
+/** Size of the framed print in pixels of the full-resolution scan (upright size `w` x `h`). */
+export function framedSize(w: number, h: number, c: Correction): { w: number; h: number; plan: GeometryPlan } {
+  const plan = geometryPlan(c, w, h);
+  return { w: plan.width, h: plan.height, plan };
+}
+
+/**
+ * Fetches the full-resolution original behind a rectangle of the framed print (x, y, w, h in its
+ * full-resolution pixels) and turns it as the frame is turned, for the 1:1 view.
+ */
+export async function loadFramedRegion(itemId: string, r: Region, plan: GeometryPlan, signal?: AbortSignal): Promise<LoadedPixels> {
+  const x0 = r.x + plan.left;
+  const y0 = r.y + plan.top;
+  const upright = uprightRect(plan, x0, y0, x0 + r.w, y0 + r.h);
+  const region = await loadRegion(itemId, upright, signal);
+  if (plan.quarterTurns === 0) return region;
+  return framedCopy(region, { ...identityCorrection(), geometry: { quarterTurns: plan.quarterTurns } });
 }

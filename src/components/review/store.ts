@@ -7,7 +7,7 @@ import type { Correction } from '../../lib/restoration/correction.ts';
 import type { Triplet } from '../../lib/restoration/colour.ts';
 import { dyeGain, sameCorrection, withDyeGain, withStrength, withWhitePoint } from '../../lib/review/adjust.ts';
 import type { ItemDetail } from '../../lib/review/types.ts';
-import type { Decision, DyeName, NegativeAvailability } from '../../lib/review/words.ts';
+import type { Decision, DyeName, NegativeAvailability, ShortcutAction } from '../../lib/review/words.ts';
 import { api, ApiError } from '../api-client.ts';
 
 /** One print of the batch, in review order, as far as the view needs to know it. */
@@ -19,6 +19,9 @@ export interface QueueEntry {
 }
 
 export type Layout = 'split' | 'side';
+
+/** Keys that change the correction: a viewer has no controls for them, so they do nothing and are not listed. */
+export const EDITING_ACTIONS: ReadonlySet<ShortcutAction> = new Set<ShortcutAction>(['pickWhite', 'strengthDown', 'strengthUp', 'reset', 'save']);
 
 /** Screen transform of the scan: screen = scan pixel × scale + offset (per half in side-by-side). */
 export interface ViewTransform {
@@ -75,6 +78,10 @@ export interface ReviewState {
   nudgeStrength(delta: number): void;
   setDyeGain(dye: DyeName, gain: number): void;
   pickWhitePoint(srgb: Triplet): void;
+  /** Changes the working correction by an edit of src/lib/review/adjust.ts (black point, contrast, curves, turns, crop). */
+  adjust(edit: (c: Correction) => Correction): void;
+  /** Uses the saved correction of the print on screen on the chosen prints of its batch. */
+  copyTo(ids: string[], withGeometry: boolean): Promise<boolean>;
   resetToProposed(): void;
   save(): Promise<void>;
   restore(version: number): Promise<void>;
@@ -172,6 +179,34 @@ export const useReview = create<ReviewState>()((set, get) => ({
   pickWhitePoint(srgb) {
     const w = get().working;
     if (w) set({ working: withWhitePoint(w, srgb), picking: false, notice: { kind: 'info', text: 'White point set from the spot you picked.' } });
+  },
+  adjust(edit) {
+    const w = get().working;
+    if (w) set({ working: edit(w) });
+  },
+  async copyTo(ids, withGeometry) {
+    const { item, busy } = get();
+    if (!item || busy || ids.length === 0) return false;
+    if (get().dirty()) {
+      set({ notice: { kind: 'info', text: 'Save your changes first: the saved version is what the other prints get.' } });
+      return false;
+    }
+    set({ busy: true });
+    try {
+      const res = await api<{ copied: { id: string; seq: number; version: number }[] }>(`/api/items/${item.id}/corrections/copies`, {
+        body: { to: ids, fromVersion: item.currentVersion ?? undefined, withGeometry },
+      });
+      const seqs = res.copied.map((c) => c.seq);
+      const names = seqs.length === 1 ? `print ${seqs[0]}` : `prints ${seqs.slice(0, -1).join(', ')} and ${seqs.at(-1)}`;
+      // the prints fetched ahead now have a newer version
+      set((s) => ({ ahead: Object.fromEntries(Object.entries(s.ahead).filter(([id]) => !ids.includes(id))), notice: { kind: 'info', text: `This correction is now used on ${names}, each as a new version; their full-size renders are on their way.` } }));
+      return true;
+    } catch (err) {
+      set({ notice: message(err) });
+      return false;
+    } finally {
+      set({ busy: false });
+    }
   },
   resetToProposed() {
     const { item } = get();
