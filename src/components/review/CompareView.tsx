@@ -109,7 +109,7 @@ export default function CompareView() {
   const geometryKey = JSON.stringify(working?.geometry ?? null);
   const px = useMemo(() => (loaded && working ? framedCopy(loaded, working) : loaded), [loaded, geometryKey]);
   const framed = useMemo(() => (upright && working ? framedSize(upright.w, upright.h, working) : null), [upright, geometryKey]);
-  const scan = framed ? { w: framed.w, h: framed.h } : null;
+  const scan = useMemo(() => (framed ? { w: framed.w, h: framed.h } : null), [framed]);
   // a new turn or crop is a new frame: fit it again, and fetch its 1:1 regions anew
   useEffect(() => {
     setHires(null);
