@@ -1,5 +1,6 @@
 import { useEffect, useMemo, useRef, useState } from 'react';
 import { dateForField, describePrintDate } from '../lib/archive/edtf.ts';
+import { sourceInWords } from '../lib/archive/source.ts';
 import { metadataSchema, suggestionSchema, type ItemMetadata, type SuggestionView } from '../lib/archive/metadata.ts';
 import { api, ApiError } from './api-client.ts';
 
@@ -9,6 +10,8 @@ interface Props {
   /** Editors edit and decide suggestions; viewers suggest. */
   canEdit: boolean;
   pending: Record<string, SuggestionView[]>;
+  /** The id of the print to open at; the first when absent or unknown. */
+  startAt?: string;
 }
 
 interface Draft {
@@ -106,10 +109,10 @@ function PeopleField({ id, value, onChange, label }: { id: string; value: string
  * next, Alt+↑ to the previous), a bulk edit over the ticked prints, and pending suggestions
  * for editors; viewers get a suggestion form instead.
  */
-export default function CaptionEditor({ batchId, items: initial, canEdit, pending: initialPending }: Props) {
+export default function CaptionEditor({ batchId, items: initial, canEdit, pending: initialPending, startAt }: Props) {
   const [items, setItems] = useState(initial);
-  const [index, setIndex] = useState(0);
-  const [draft, setDraft] = useState<Draft>(emptyDraft(initial[0]));
+  const [index, setIndex] = useState(() => Math.max(0, initial.findIndex((i) => i.id === startAt?.toLowerCase())));
+  const [draft, setDraft] = useState<Draft>(() => emptyDraft(initial[Math.max(0, initial.findIndex((i) => i.id === startAt?.toLowerCase()))]));
   const [errors, setErrors] = useState<Record<string, string>>({});
   const [status, setStatus] = useState<string | null>(null);
   const [failure, setFailure] = useState<string | null>(null);
@@ -235,7 +238,7 @@ export default function CaptionEditor({ batchId, items: initial, canEdit, pendin
 
   return (
     <div className="grid gap-6 lg:grid-cols-[18rem_1fr]" onKeyDown={onKeyDown}>
-      <section aria-label="Prints" className="card max-h-[75vh] overflow-y-auto p-3">
+      <section aria-label="Prints" className="card order-2 max-h-[75vh] overflow-y-auto p-3 lg:order-none">
         {canEdit && (
           <div className="mb-2 flex items-center justify-between text-sm">
             <span>{selected.size} chosen</span>
@@ -265,7 +268,7 @@ export default function CaptionEditor({ batchId, items: initial, canEdit, pendin
         </ol>
       </section>
 
-      <div className="space-y-6">
+      <div className="order-1 min-w-0 space-y-6 lg:order-none">
         {status && <p className="notice" role="status">{status}</p>}
         {failure && <p className="notice-error" role="alert">{failure}</p>}
 
@@ -282,7 +285,7 @@ export default function CaptionEditor({ batchId, items: initial, canEdit, pendin
             <div>
               <img src={`/api/items/${current.id}/preview`} alt={`Print ${current.seq}`} className="w-full rounded border border-paper-200" />
               <p className="mt-2 text-xs text-ink-500">
-                From the {current.source.kind} {current.source.label ? `“${current.source.label}”` : ''} (batch {current.source.batchName}), scan {current.originalName}
+                {sourceInWords(current.source.kind, current.source.label) ?? 'Source not recorded'} · batch {current.source.batchName} · scan {current.originalName}
               </p>
             </div>
             <div className="space-y-3">

@@ -10,12 +10,16 @@ import { BASE } from './http.ts';
 
 export const ARTIFACTS = path.resolve('tests/artifacts');
 
-export async function launchBrowser(): Promise<BrowserContext> {
+/** A phone held upright: 390 CSS pixels wide, touch, a dense screen, a phone's user agent. */
+export const PHONE = { viewport: { width: 390, height: 844 }, deviceScaleFactor: 3, isMobile: true, hasTouch: true } as const;
+
+/** Chromium with a desktop window, or with `PHONE` (or another device) when given. */
+export async function launchBrowser(device: { viewport: { width: number; height: number }; deviceScaleFactor?: number; isMobile?: boolean; hasTouch?: boolean } = { viewport: { width: 1280, height: 860 } }): Promise<BrowserContext> {
   const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'drawerlight-chromium-'));
   const context = await chromium.launchPersistentContext(dir, {
     executablePath: '/usr/bin/chromium',
     headless: true,
-    viewport: { width: 1280, height: 860 },
+    ...device,
     args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'],
   });
   // The profile folder is the test's own: removed once Chromium has closed (it may still be

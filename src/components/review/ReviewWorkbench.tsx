@@ -140,8 +140,8 @@ export default function ReviewWorkbench({ item: initial, queue: initialQueue, ca
         )}
       </div>
 
-      <div className="grid gap-4 lg:grid-cols-[minmax(0,1fr)_20rem]">
-        <div className="space-y-2">
+      <div className="grid grid-cols-[minmax(0,1fr)] gap-4 lg:grid-cols-[minmax(0,1fr)_20rem]">
+        <div className="min-w-0 space-y-2">
           <div className="h-[62vh]">
             <CompareView />
           </div>
