@@ -430,15 +430,15 @@ export default function BatchTable({ batchId, initial, query, canDecide, otherBa
                 </td>
                 <td className="px-3 py-2">
                   {r.dyes ? (
-                    <span className="grid w-36 gap-0.5" aria-label={`Dye left: cyan ${Math.round(r.dyes.cyan)} %, magenta ${Math.round(r.dyes.magenta)} %, yellow ${Math.round(r.dyes.yellow)} %`}>
-                      {(['cyan', 'magenta', 'yellow'] as const).map((d) => (
-                        <span key={d} className="flex items-center gap-1.5" title={`${d}: ${Math.round(r.dyes![d])} % left`}>
-                          <span className="h-1.5 flex-1 overflow-hidden rounded-full bg-paper-100">
-                            <span className="block h-full rounded-full" style={{ width: `${Math.min(100, r.dyes![d])}%`, background: DYE_COLOURS[d] }} />
-                          </span>
-                          <span className="w-8 text-right text-[11px] tabular-nums text-ink-500">{Math.round(r.dyes![d])}</span>
-                        </span>
-                      ))}
+                    // two elements per dye (a bar drawn as a gradient and its figure): a page of rows stays small
+                    <span className="grid w-36 grid-cols-[1fr_2rem] items-center gap-x-1.5 gap-y-0.5" role="img" aria-label={`Dye left: cyan ${Math.round(r.dyes.cyan)} %, magenta ${Math.round(r.dyes.magenta)} %, yellow ${Math.round(r.dyes.yellow)} %`}>
+                      {(['cyan', 'magenta', 'yellow'] as const).map((d) => {
+                        const left = Math.max(0, Math.min(100, r.dyes![d]));
+                        return [
+                          <span key={`${d}-bar`} className="h-1.5 rounded-full" style={{ background: `linear-gradient(to right, ${DYE_COLOURS[d]} ${left}%, #f4eee2 ${left}%)` }} />,
+                          <span key={`${d}-n`} className="text-right text-[11px] tabular-nums text-ink-500">{Math.round(r.dyes![d])}</span>,
+                        ];
+                      })}
                     </span>
                   ) : '–'}
                 </td>
