@@ -191,10 +191,15 @@ export async function probeWithHead(input: string | Buffer, limits: Partial<Scan
 function decodeError(err: unknown): ScanRejected {
   if (err instanceof ScanRejected) return err;
   const msg = String((err as Error)?.message ?? err);
-  if (/premature|truncat|end of (file|data)|short read|unexpected end/i.test(msg)) {
-    return new ScanRejected('unreadable', 'The image is cut short (the file is incomplete or was not fully copied).', { cause: err });
-  }
-  return new ScanRejected('unreadable', 'The image data is damaged and cannot be decoded.', { cause: err });
+  const cutShort = () => new ScanRejected('unreadable', 'The image is cut short (the file is incomplete or was not fully copied).', { cause: err });
+  const damaged = () => new ScanRejected('unreadable', 'The image data is damaged and cannot be decoded.', { cause: err });
+  // The file itself ended early (libjpeg and libvips say "premature end of JPEG file/image").
+  if (/premature end of (JPEG |input )?(file|image)|truncat|end of file|short read|unexpected end/i.test(msg)) return cutShort();
+  // Damaged entropy data inside a whole file: libjpeg's words ("Corrupt JPEG data: premature end of
+  // data segment") also say "premature", so this is asked before the looser test below.
+  if (/Corrupt JPEG data/i.test(msg)) return damaged();
+  if (/premature|end of data/i.test(msg)) return cutShort();
+  return damaged();
 }
 
 /**

@@ -122,11 +122,27 @@ describe('refusals', () => {
     expect((await rejection(probeScan(jpeg, { maxBytes: 100 }))).code).toBe('too_large');
   });
 
-  it('refuses a truncated JPEG with a clear reason', async () => {
+  it('refuses a truncated JPEG as cut short', async () => {
     const jpeg = await encodeScene(generateScene({ width: 300, height: 200 }), { format: 'jpeg' });
     const err = await rejection(analyseAndRender(jpeg.subarray(0, Math.floor(jpeg.length / 2))));
     expect(err.code).toBe('unreadable');
-    expect(err.message).toMatch(/cut short|damaged/);
+    expect(err.message).toBe('The image is cut short (the file is incomplete or was not fully copied).');
+  });
+
+  it('refuses a whole JPEG with corrupt entropy data as damaged, not as cut short', async () => {
+    // A quarter of the compressed scan data taken out of the middle of a file that still ends with
+    // its end-of-image marker: libjpeg warns "Corrupt JPEG data: premature end of data segment",
+    // whose "premature" must not make it read as a file cut short.
+    const jpeg = await encodeScene(generateScene({ width: 600, height: 400 }), { format: 'jpeg' });
+    const sos = jpeg.indexOf(Buffer.from([0xff, 0xda]));
+    const dataStart = sos + 2 + jpeg.readUInt16BE(sos + 2);
+    const from = dataStart + Math.floor((jpeg.length - dataStart) / 3);
+    const corrupt = Buffer.concat([jpeg.subarray(0, from), jpeg.subarray(from + Math.floor((jpeg.length - dataStart) / 4))]);
+    expect(corrupt.subarray(-2)).toEqual(Buffer.from([0xff, 0xd9]));
+    const err = await rejection(analyseAndRender(corrupt));
+    expect(err.code).toBe('unreadable');
+    expect(err.message).toBe('The image data is damaged and cannot be decoded.');
+    expect(String((err.cause as Error)?.message)).toMatch(/Corrupt JPEG data/);
   });
 
   it('refuses a missing file as unreadable', async () => {
