@@ -15,6 +15,8 @@ export function bodyLimitFor(pathname: string): number {
   return pathname.startsWith('/api/auth/') ? FORM_BODY_LIMIT : JSON_BODY_LIMIT;
 }
 
+const mbText = (bytes: number) => `${Math.round((bytes / 1048576) * 10) / 10} MB`;
+
 function tooLarge(limit: number): TooLarge {
   const size = limit >= 1048576 ? `${Math.round(limit / 1048576)} MB` : `${Math.round(limit / 1024)} KB`;
   return new TooLarge(`The request body is larger than the ${size} this address takes.`);
@@ -28,7 +30,10 @@ export function refuseDeclaredOversize(request: Request, pathname: string): TooL
   if (request.method === 'GET' || request.method === 'HEAD') return null;
   const declared = Number(request.headers.get('content-length') ?? NaN);
   const limit = bodyLimitFor(pathname);
-  return Number.isFinite(declared) && declared > limit ? tooLarge(limit) : null;
+  if (!Number.isFinite(declared) || declared <= limit) return null;
+  // a scan is refused in the words the upload page uses, with both sizes
+  if (SCAN_UPLOAD.test(pathname)) return new TooLarge(`The file is ${mbText(declared)}; the limit for one scan is ${mbText(limit)}.`);
+  return tooLarge(limit);
 }
 
 /**
