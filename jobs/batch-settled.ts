@@ -3,7 +3,8 @@
  * 1. Batch pooling (the engine's poolAnalyses): each print's estimate is combined with its siblings'
  *    from the same box or drawer, as far as its own is unsure; where that changes the proposal, a 'pooled'
  *    correction version is added (jobs/render.ts renders it, as it does every version without a render).
- * 2. Whoever created the batch gets one e-mail with the counts and a link (finished_notified_at).
+ * 2. Whoever created the batch gets one e-mail with the counts and a link (finished_notified_at), through
+ *    the mail queue, so a mail server that is down delays it instead of losing it.
  * Both wait until the batch has been quiet for BATCH_QUIET_SECONDS (the job puts itself off until then):
  * no scan added, no upload request started or ended, no worker started. A worker that starts queues
  * again the analyses a stopped worker left half done (jobs/presence.ts), so the counts are whole.
@@ -16,7 +17,8 @@ import { poolAnalyses, type Analysis } from '../src/lib/restoration/analysis.ts'
 import { sameCorrection } from '../src/lib/restoration/correction.ts';
 import { stateCounts } from '../src/lib/server/batches.ts';
 import { config } from '../src/lib/server/config.ts';
-import { linkMail, sendMail } from '../src/lib/server/mailer.ts';
+import { queueMail } from '../src/lib/server/mail-queue.ts';
+import { linkMail } from '../src/lib/server/mailer.ts';
 import { BATCH_QUIET_SECONDS, BATCH_SETTLED_QUEUE, enqueueBatchSettled, type BatchSettledJob } from '../src/lib/server/processing.ts';
 import { PRESENCE_PREFIX } from './presence.ts';
 import type { JobHandler } from './registry.ts';
@@ -29,7 +31,6 @@ function ownAnalysis(stored: Record<string, unknown>): Analysis {
 
 async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
   let pooledCount = 0;
-  let mail: ReturnType<typeof linkMail> | null = null;
   let putOff = 0;
   await db().transaction(async (transaction) => {
     const batch = await Batch.findByPk(job.data.batchId, { transaction, lock: transaction.LOCK.UPDATE });
@@ -83,7 +84,7 @@ async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
         const url = `${config().appUrl}/batches/${batch.id}`;
         const parts = [`${counts.ready} ready for review`];
         if (counts.failed) parts.push(`${counts.failed} failed (each with its reason and a "Try again" button)`);
-        mail = linkMail(
+        const mail = linkMail(
           creator.email,
           `Batch "${batch.name}" is ready for review`,
           `All ${counts.total} scans of the batch "${batch.name}" have been processed: ${parts.join(', ')}.`,
@@ -91,8 +92,9 @@ async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
           url,
           pooledCount ? `${pooledCount} prints had their proposal refined with what the other prints of this batch show (prints of one box usually aged alike).` : '',
         );
-        // Sent while the row is locked and before the mark is committed: a failed send rolls back and the job retries.
-        await sendMail(mail);
+        // Queued in this transaction: it goes out exactly when the mark is committed, and a mail
+        // server that is down delays it (the mail queue retries) instead of losing it.
+        await queueMail(mail, transaction);
       }
       await batch.update({ finishedNotifiedAt: new Date() }, { transaction });
     }

@@ -5,6 +5,7 @@ import { renderHandler } from './render.ts';
 import { batchSettledHandler } from './batch-settled.ts';
 import { exportHandler } from './export.ts';
 import { purgeRemovedHandler } from './purge-removed.ts';
+import { mailHandler } from './mail.ts';
 
 /** One queue's handler as the worker registers it. */
 export interface JobHandler {
@@ -20,3 +21,4 @@ export const HANDLERS: JobHandler[] = [];
 HANDLERS.push(analyseHandler, renderHandler, batchSettledHandler);
 HANDLERS.push(exportHandler);
 HANDLERS.push(purgeRemovedHandler);
+HANDLERS.push(mailHandler);

@@ -99,6 +99,10 @@ export interface IsolatedStack {
   /** Stops every worker with `signal`. */
   stopWorkers(signal?: NodeJS.Signals): Promise<void>;
   workerPids(): number[];
+  /** Stops the mail fake (the SMTP server is down: connections are refused). */
+  stopMail(): Promise<void>;
+  /** Starts the mail fake again and waits for its port. */
+  startMail(): Promise<void>;
   /** The web server's pid while it runs. */
   serverPid(): number | undefined;
   stopPostgres(): void;
@@ -152,7 +156,8 @@ export async function startIsolatedStack(opts: IsolatedStackOptions): Promise<Is
   });
   await migrator(sql, ROOT).up();
 
-  const mail = new Proc('mail fake', ['--import', 'tsx', 'src/scripts/mail-fake.ts'], env, path.join(logs, 'mail-fake.log'));
+  const mailFake = () => new Proc('mail fake', ['--import', 'tsx', 'src/scripts/mail-fake.ts'], env, path.join(logs, 'mail-fake.log'));
+  let mail = mailFake();
   let server: Proc | undefined;
   const workers: Proc[] = [];
   let workerCount = 0;
@@ -184,6 +189,12 @@ export async function startIsolatedStack(opts: IsolatedStackOptions): Promise<Is
       workers.length = 0;
     },
     workerPids: () => workers.filter((w) => w.running).map((w) => w.child.pid!),
+    stopMail: () => mail.stop(),
+    async startMail() {
+      if (mail.running) return;
+      mail = mailFake();
+      await waitForPort(smtpPort, 30_000, 'the isolated mail fake');
+    },
     serverPid: () => (server?.running ? server.child.pid : undefined),
     stopPostgres,
     startPostgres,

@@ -3,11 +3,10 @@
  * The web server, the ingest command and the worker all import this module, so each process
  * knows the same queue behaviour (retries with backoff, the dead-letter queue, expiry).
  */
-import type PgBoss from 'pg-boss';
 import { QueryTypes } from 'sequelize';
 import { db } from '../../../db/index.ts';
 import { ANALYSIS_SIDE } from '../restoration/imaging.ts';
-import { DEAD_LETTER_QUEUE, declareQueue, queue, type QueueSpec } from './queue.ts';
+import { DEAD_LETTER_QUEUE, declareQueue, queueFor as boss } from './queue.ts';
 
 /** Analyse one item: decode once, measure, propose, and make the small copies the review shows. */
 export const ANALYSE_QUEUE = declareQueue({
@@ -39,23 +38,6 @@ export interface RenderJob {
 }
 export interface BatchSettledJob {
   batchId: string;
-}
-
-const created = new Set<string>();
-
-/**
- * pg-boss 10 refuses to send to a queue it has not created; a process may have started the queue
- * before this module was imported, so each queue is made sure of once per process.
- */
-async function boss(spec: QueueSpec): Promise<PgBoss> {
-  const b = await queue();
-  if (!created.has(spec.name)) {
-    await b.createQueue(spec.name, { name: spec.name, ...spec.options }).catch((err: Error) => {
-      if (!/already exists/i.test(String(err?.message))) throw err;
-    });
-    created.add(spec.name);
-  }
-  return b;
 }
 
 /**

@@ -37,6 +37,22 @@ export function queue(): Promise<PgBoss> {
   return started;
 }
 
+const created = new Set<string>();
+
+/**
+ * The started queue, with `spec`'s queue made sure of once per process: pg-boss 10 refuses to send
+ * to a queue it has not created, and a process may have started the queue before the module that
+ * declares `spec` was imported.
+ */
+export async function queueFor(spec: QueueSpec): Promise<PgBoss> {
+  const boss = await queue();
+  if (!created.has(spec.name)) {
+    await boss.createQueue(spec.name, { name: spec.name, ...spec.options }).catch(ignoreExists);
+    created.add(spec.name);
+  }
+  return boss;
+}
+
 function ignoreExists(err: unknown) {
   if (!/already exists/i.test(String((err as Error)?.message))) throw err;
 }
