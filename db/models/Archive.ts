@@ -6,6 +6,8 @@ export class Archive extends Model<InferAttributes<Archive>, InferCreationAttrib
   declare slug: string;
   declare name: string;
   declare description: CreationOptional<string | null>;
+  /** The IANA time zone its dates and times are shown in. */
+  declare timeZone: CreationOptional<string>;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 
@@ -16,6 +18,7 @@ export class Archive extends Model<InferAttributes<Archive>, InferCreationAttrib
         slug: { type: DataTypes.STRING(80), allowNull: false, unique: true },
         name: { type: DataTypes.STRING(200), allowNull: false },
         description: DataTypes.TEXT,
+        timeZone: { type: DataTypes.STRING(64), allowNull: false, defaultValue: 'UTC' },
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
       },

@@ -3,6 +3,7 @@ import { dateInWords } from '../lib/archive/edtf.ts';
 import { DEFAULT_NAME_PATTERN, namePatternSchema } from '../lib/archive/naming.ts';
 import { exportProgressWords, type ExportStatus } from '../lib/archive/exports.ts';
 import { api, ApiError } from './api-client.ts';
+import { formatDay, formatWhen } from '../lib/archive/when.ts';
 
 type ExportRow = ExportStatus;
 
@@ -20,12 +21,14 @@ interface Props {
   counts: { sinceLast: number; lastExportAt: string | null; batches: { id: string; name: string; accepted: number }[] };
   prints: Print[];
   exports: ExportRow[];
+  /** The archive's time zone, for the dates shown. */
+  timeZone: string;
 }
 
 const STATE_WORDS: Record<ExportRow['state'], string> = { queued: 'Waiting to start', running: 'Being packed', ready: 'Ready', failed: 'Failed' };
 
 /** Choose what to export, follow its progress, download the finished bags. */
-export default function ExportManager({ counts, prints, exports: initial }: Props) {
+export default function ExportManager({ counts, prints, exports: initial, timeZone }: Props) {
   const [kind, setKind] = useState<'since_last' | 'batch' | 'items'>('since_last');
   const [batchId, setBatchId] = useState(counts.batches.find((b) => b.accepted > 0)?.id ?? counts.batches[0]?.id ?? '');
   const [chosen, setChosen] = useState<Set<string>>(new Set());
@@ -81,7 +84,7 @@ export default function ExportManager({ counts, prints, exports: initial }: Prop
           <legend className="sr-only">Choice of prints</legend>
           <label className="flex items-center gap-2">
             <input type="radio" name="kind" value="since_last" checked={kind === 'since_last'} onChange={() => setKind('since_last')} />
-            Everything accepted since the last export ({counts.sinceLast} prints{counts.lastExportAt ? `, last export ${new Date(counts.lastExportAt).toLocaleDateString()}` : ', no export yet'})
+            Everything accepted since the last export ({counts.sinceLast} prints{counts.lastExportAt ? `, last export ${formatDay(counts.lastExportAt, timeZone)}` : ', no export yet'})
           </label>
           <label className="flex flex-wrap items-center gap-2">
             <input type="radio" name="kind" value="batch" checked={kind === 'batch'} onChange={() => setKind('batch')} />
@@ -135,7 +138,7 @@ export default function ExportManager({ counts, prints, exports: initial }: Prop
             {exportsList.map((e) => (
               <li key={e.id} id={`export-${e.id}`} className="py-3" data-export={e.id} data-state={e.state}>
                 <div className="flex flex-wrap items-center gap-3 text-sm">
-                  <span className="font-medium">{new Date(e.createdAt).toLocaleString()}</span>
+                  <span className="font-medium">{formatWhen(e.createdAt, timeZone)}</span>
                   <span>{e.items} prints</span>
                   <span className={e.state === 'failed' ? 'text-danger-700' : 'text-ink-700'}>{STATE_WORDS[e.state]}{e.verified ? ' · checked' : ''}</span>
                   {e.downloadUrl && (

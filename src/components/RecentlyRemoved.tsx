@@ -2,11 +2,12 @@
 import { useState } from 'react';
 import { api, ApiError } from './api-client.ts';
 import type { RemovedEntry } from '../lib/review/types.ts';
+import { formatDay } from '../lib/archive/when.ts';
 
-const day = (iso: string) => new Date(iso).toLocaleDateString('en-GB', { day: 'numeric', month: 'long', year: 'numeric' });
 const plural = (n: number, one: string, many = `${one}s`) => `${n} ${n === 1 ? one : many}`;
 
-export default function RecentlyRemoved({ entries: initial, canRestore }: { entries: RemovedEntry[]; canRestore: boolean }) {
+export default function RecentlyRemoved({ entries: initial, canRestore, timeZone }: { entries: RemovedEntry[]; canRestore: boolean; timeZone: string }) {
+  const day = (iso: string) => formatDay(iso, timeZone);
   const [entries, setEntries] = useState(initial);
   const [message, setMessage] = useState<{ kind: 'info' | 'error'; text: string; href?: string } | null>(null);
   const [busy, setBusy] = useState<string | null>(null);

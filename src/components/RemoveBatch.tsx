@@ -4,6 +4,7 @@
  */
 import { useState } from 'react';
 import { api, ApiError } from './api-client.ts';
+import { formatDay, pageTimeZone } from '../lib/archive/when.ts';
 
 interface Summary {
   name: string;
@@ -15,7 +16,8 @@ interface Summary {
 }
 
 const plural = (n: number, one: string, many = `${one}s`) => `${n} ${n === 1 ? one : many}`;
-const day = (iso: string) => new Date(iso).toLocaleDateString('en-GB', { day: 'numeric', month: 'long', year: 'numeric' });
+// shown only after a click, in the browser: the page gives the archive's time zone
+const day = (iso: string) => formatDay(iso, pageTimeZone());
 
 export default function RemoveBatch({ batchId }: { batchId: string }) {
   const [summary, setSummary] = useState<Summary | null>(null);

@@ -1,11 +1,12 @@
 import { useState } from 'react';
 import { api, ApiError } from './api-client.ts';
 import { useHydrated } from './use-hydrated.ts';
+import { formatDay } from '../lib/archive/when.ts';
 
 type Role = 'owner' | 'editor' | 'viewer';
 interface Member { membershipId: string; userId: string; email: string; name: string | null; role: Role }
 interface Invitation { id: string; email: string; role: Role; expiresAt: string }
-interface Props { members: Member[]; invitations: Invitation[]; currentUserId: string; roleDescriptions: Record<Role, string> }
+interface Props { members: Member[]; invitations: Invitation[]; currentUserId: string; roleDescriptions: Record<Role, string>; timeZone: string }
 
 const ROLES: Role[] = ['viewer', 'editor', 'owner'];
 
@@ -121,7 +122,7 @@ export default function TeamManager(props: Props) {
           <ul className="mt-3 divide-y divide-paper-200 text-sm">
             {invitations.map((i) => (
               <li key={i.id} className="flex items-center justify-between py-2" data-invitation={i.email}>
-                <span>{i.email} · {i.role} · until {new Date(i.expiresAt).toLocaleDateString()}</span>
+                <span>{i.email} · {i.role} · until {formatDay(i.expiresAt, props.timeZone)}</span>
                 <button className="btn-quiet py-1" type="button" onClick={() => withdraw(i)}>Withdraw</button>
               </li>
             ))}

@@ -1,11 +1,12 @@
 import { useState } from 'react';
 import { api, ApiError } from './api-client.ts';
 import { useHydrated } from './use-hydrated.ts';
+import { formatDay, formatWhen } from '../lib/archive/when.ts';
 
 interface Token { id: string; name: string; prefix: string; createdAt: string; lastUsedAt: string | null; revokedAt: string | null }
 
 /** Personal API tokens: create (the secret is shown once), list, revoke. */
-export default function TokenManager({ tokens: initial, appUrl }: { tokens: Token[]; appUrl: string }) {
+export default function TokenManager({ tokens: initial, appUrl, timeZone }: { tokens: Token[]; appUrl: string; timeZone: string }) {
   const [tokens, setTokens] = useState(initial);
   const [name, setName] = useState('');
   const [fresh, setFresh] = useState<string | null>(null);
@@ -77,8 +78,8 @@ export default function TokenManager({ tokens: initial, appUrl }: { tokens: Toke
             <tr key={t.id} className="border-t border-paper-200" data-token={t.name}>
               <td className="py-2">{t.name}</td>
               <td><code>{t.prefix}…</code></td>
-              <td>{new Date(t.createdAt).toLocaleDateString()}</td>
-              <td>{t.lastUsedAt ? new Date(t.lastUsedAt).toLocaleString() : 'never'}</td>
+              <td>{formatDay(t.createdAt, timeZone)}</td>
+              <td>{t.lastUsedAt ? formatWhen(t.lastUsedAt, timeZone) : 'never'}</td>
               <td className="text-right">{t.revokedAt ? <span className="text-ink-500">revoked</span> : <button className="btn-danger py-1" type="button" onClick={() => revoke(t)}>Revoke</button>}</td>
             </tr>
           ))}

@@ -8,6 +8,7 @@ import { dyeGain, GAIN_RANGE } from '../../lib/review/adjust.ts';
 import { DYE_LAYERS } from '../../lib/review/words.ts';
 import { CopyToPrints, FramingControls, ToneControls } from './CorrectionControls.tsx';
 import { useReview } from './store.ts';
+import { formatWhen, pageTimeZone } from '../../lib/archive/when.ts';
 
 const ORIGIN_WORDS: Record<string, string> = {
   proposed: 'proposed by Drawerlight',
@@ -21,8 +22,7 @@ function hex(rgb: readonly number[]): string {
 }
 
 function time(iso: string): string {
-  const d = new Date(iso);
-  return d.toLocaleString(undefined, { day: 'numeric', month: 'short', hour: '2-digit', minute: '2-digit' });
+  return formatWhen(iso, pageTimeZone());
 }
 
 export default function AdjustPanel() {

@@ -5,6 +5,7 @@
 import { useEffect, useRef } from 'react';
 import { DECISION_WORDS, NEGATIVE_AVAILABILITY, NEGATIVE_PLACES, NEGATIVE_WORDS, type NegativeAvailability } from '../../lib/review/words.ts';
 import { useReview } from './store.ts';
+import { formatWhen, pageTimeZone } from '../../lib/archive/when.ts';
 
 export default function DecisionBar() {
   const item = useReview((s) => s.item);
@@ -21,7 +22,7 @@ export default function DecisionBar() {
 
   if (!item) return null;
   const decided = item.decision
-    ? `${DECISION_WORDS[item.decision]} by ${item.decidedBy?.name ?? 'someone'}, ${new Date(item.decidedAt!).toLocaleString(undefined, { day: 'numeric', month: 'short', hour: '2-digit', minute: '2-digit' })}`
+    ? `${DECISION_WORDS[item.decision]} by ${item.decidedBy?.name ?? 'someone'}, ${formatWhen(item.decidedAt!, pageTimeZone())}`
     : DECISION_WORDS.undecided;
 
   return (

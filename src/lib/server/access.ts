@@ -15,6 +15,8 @@ export interface ArchiveMembership {
   slug: string;
   name: string;
   role: Role;
+  /** The archive's time zone (IANA name), for showing dates and times. */
+  timeZone: string;
 }
 
 /** Checks made in one place so every route answers the same: 401, then 404 for another archive, then 403. */

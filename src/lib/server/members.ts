@@ -5,12 +5,12 @@ import type { ArchiveMembership } from './access.ts';
 export async function membershipsFor(userId: string): Promise<ArchiveMembership[]> {
   const rows = await Membership.findAll({
     where: { userId },
-    include: [{ model: Archive, as: 'archive', attributes: ['id', 'slug', 'name'] }],
+    include: [{ model: Archive, as: 'archive', attributes: ['id', 'slug', 'name', 'timeZone'] }],
   });
   return rows
     .map((m) => {
       const a = (m as Membership & { archive: Archive }).archive;
-      return { archiveId: a.id, slug: a.slug, name: a.name, role: m.role };
+      return { archiveId: a.id, slug: a.slug, name: a.name, role: m.role, timeZone: a.timeZone };
     })
     .sort((a, b) => a.name.localeCompare(b.name));
 }

@@ -6,10 +6,11 @@
 import { randomUUID } from 'node:crypto';
 import sharp from 'sharp';
 import { Op, type Transaction } from 'sequelize';
-import { AuditEvent, Batch, Correction, Item, Original, User, db } from '../../../db/index.ts';
+import { Archive, AuditEvent, Batch, Correction, Item, Original, User, db } from '../../../db/index.ts';
 import { correctionSchema, applyCorrection, buildChannelLuts, type Correction as CorrectionParams } from '../restoration/correction.ts';
 import { probeScan } from '../restoration/imaging.ts';
 import type { Analysis } from '../restoration/analysis.ts';
+import { DEFAULT_TIME_ZONE, formatWhen } from '../archive/when.ts';
 import { requireArchiveRole } from './access.ts';
 import { recordAudit } from './audit.ts';
 import { config } from './config.ts';
@@ -109,9 +110,10 @@ export async function itemDetail(item: Item): Promise<ItemDetail> {
   };
 }
 
-/** A moment written the same way in every conflict message. */
-function when(d: Date): string {
-  return `${d.toISOString().slice(11, 16)} UTC on ${d.toISOString().slice(0, 10)}`;
+/** A moment written as everywhere else, in the archive's time zone, the zone named (a conflict may cross zones). */
+async function when(d: Date, archiveId: string, transaction?: Transaction): Promise<string> {
+  const zone = (await Archive.findByPk(archiveId, { attributes: ['timeZone'], transaction }))?.timeZone ?? DEFAULT_TIME_ZONE;
+  return `${formatWhen(d, zone)} (${zone})`;
 }
 
 /** The 409 for a print that changed since the caller loaded it, naming who decided it and when. */
@@ -120,12 +122,12 @@ async function staleConflict(item: Item, transaction?: Transaction): Promise<App
   const fields: Record<string, string> = { lockVersion: String(item.lockVersion) };
   let message: string;
   if (item.decision && item.decidedAt) {
-    message = `${who?.name ?? 'Someone'} already decided this print (${DECISION_WORDS[item.decision as Decision]}) at ${when(item.decidedAt)}. Nothing of yours was saved: look at it again, then decide.`;
+    message = `${who?.name ?? 'Someone'} already decided this print (${DECISION_WORDS[item.decision as Decision]}) on ${await when(item.decidedAt, item.archiveId, transaction)}. Nothing of yours was saved: look at it again, then decide.`;
     fields.decision = item.decision;
     fields.decidedAt = item.decidedAt.toISOString();
     if (who) fields.decidedBy = who.name;
   } else {
-    message = `This print was changed by someone else at ${when(item.updatedAt)}. Nothing of yours was saved: look at it again, then decide.`;
+    message = `This print was changed by someone else on ${await when(item.updatedAt, item.archiveId, transaction)}. Nothing of yours was saved: look at it again, then decide.`;
   }
   return new AppError(409, 'stale_print', message, fields);
 }
@@ -352,7 +354,7 @@ async function addVersion(
       throw new AppError(
         409,
         'stale_correction',
-        `${who?.name ?? 'Someone'} saved version ${it.currentVersion} of this correction at ${when(latest?.createdAt ?? it.updatedAt)}, after the version ${basedOnVersion} you started from. Nothing of yours was saved: look at theirs, then adjust again.`,
+        `${who?.name ?? 'Someone'} saved version ${it.currentVersion} of this correction on ${await when(latest?.createdAt ?? it.updatedAt, it.archiveId, transaction)}, after the version ${basedOnVersion} you started from. Nothing of yours was saved: look at theirs, then adjust again.`,
         { currentVersion: String(it.currentVersion) },
       );
     }

@@ -7,6 +7,7 @@ import { AuditEvent, Item, closeDb } from '../../../db/index.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
 import type { Client } from '../../support/http.ts';
 import { fadedScans, readyBatch } from './helpers.ts';
+import { formatWhen } from '../../../src/lib/archive/when.ts';
 
 let archive: TestArchive;
 let editor: Client;
@@ -45,7 +46,8 @@ describe('deciding a print', () => {
     const decidedAt = first.body.item.decidedAt as string;
     expect(later.body.error.fields.decidedBy).toBe(`editor ${archive.slug}`);
     expect(later.body.error.fields.decidedAt).toBe(decidedAt);
-    expect(later.body.error.message).toContain(`already decided this print (Accepted) at ${decidedAt.slice(11, 16)} UTC on ${decidedAt.slice(0, 10)}`);
+    // written as everywhere in the product, in the archive's time zone (UTC unless set), named
+    expect(later.body.error.message).toContain(`already decided this print (Accepted) on ${formatWhen(decidedAt, 'UTC')} (UTC)`);
 
     const now = await detail(viewer, id);
     expect(now.decision).toBe('accepted');

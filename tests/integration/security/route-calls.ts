@@ -88,6 +88,7 @@ export const ROUTE_CALLS: Record<string, RouteCall> = {
     },
   },
   'POST /api/session/archive': { request: (c) => ({ json: { slug: ownSlug(c) } }), status: 200, check: (r, c) => expect(r.body).toEqual({ slug: ownSlug(c) }) },
+  'PATCH /api/archive': { request: () => ({ json: { timeZone: 'Europe/Dublin' } }), status: 200, check: (r) => expect(r.body.timeZone).toBe('Europe/Dublin') },
   'POST /api/session/signout': { status: 204, check: (r) => expect(r.text).toBe('') },
   'POST /api/invitations/[token]': { request: () => ({ json: { name: 'Nobody', password: 'a long enough password' } }), status: 404, check: errorCode('not_found') },
   'GET /api/tokens': { status: 200, check: (r) => expect(r.body.tokens.length).toBeGreaterThan(0) },

@@ -33,6 +33,7 @@ export const ROUTE_RULES: Record<string, RouteRule> = {
   'ALL /api/auth/[...auth]': { scope: 'public', tokensIgnored: true },
   'GET /api/me': { scope: 'user' },
   'POST /api/session/archive': { scope: 'user' },
+  'PATCH /api/archive': { scope: 'current', role: 'owner' },
   'POST /api/session/signout': { scope: 'public' },
   'POST /api/invitations/[token]': { scope: 'public', params: { token: 'inviteToken' } },
   'GET /api/tokens': { scope: 'user' },
