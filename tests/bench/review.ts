@@ -2,6 +2,9 @@
  * Review workbench benchmark (`npm run bench:review`, run inside tests/bench/with-stack.sh, or on
  * its own with APP_URL pointing at a running stack): prints figures, asserts nothing.
  *
+ * First the batch page of a 1,000-print batch (tests/bench/review-batch.ts: load, size, elements,
+ * scrolling, page turns, search, the items API), then the print review view below.
+ *
  * One generated 3072x2048 faded scan (an invented scene) is uploaded through the API and
  * processed by the real worker; the print review view opens it in Chromium with its 2048 px
  * preview. Measured in the page:
@@ -22,6 +25,7 @@ import { closeDb } from '../../db/index.ts';
 import { AGEING_MODELS, syntheticScan } from '../../src/lib/demo/synthetic.ts';
 import { makeArchive, TEST_PASSWORD } from '../support/fixtures.ts';
 import { Client } from '../support/http.ts';
+import { benchBatchPage } from './review-batch.ts';
 
 const BASE = process.env.APP_URL!;
 const DRAG_PASSES = Number(process.env.BENCH_DRAG_PASSES ?? 8);
@@ -53,6 +57,13 @@ async function readyItem(token: string): Promise<string> {
 
 async function main() {
   const archive = await makeArchive('bench-review');
+  // BENCH_REVIEW_PART=batch measures only the batch page of a large batch, =print only the print review view
+  const part = process.env.BENCH_REVIEW_PART ?? 'all';
+  if (part !== 'print') await benchBatchPage(archive);
+  if (part === 'batch') {
+    await closeDb();
+    return;
+  }
   const itemId = await readyItem(archive.editor.token);
   const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'drawerlight-bench-chromium-'));
   const browser = await chromium.launchPersistentContext(dir, {

@@ -396,7 +396,7 @@ export default function BatchTable({ batchId, initial, query, canDecide, otherBa
                 <td className="px-3 py-2">
                   <a href={r.state === 'ready' || r.state === 'failed' ? `/items/${r.id}` : undefined} className="flex items-center gap-3 text-ink-900 hover:text-lamp-700">
                     {r.hasThumbnail ? (
-                      <img src={`/api/items/${r.id}/thumbnail`} alt="" width={64} height={44} loading="lazy" className="h-11 w-16 rounded border border-paper-200 object-cover" />
+                      <img src={`/api/items/${r.id}/thumbnail`} alt="" width={64} height={44} loading="lazy" decoding="async" className="h-11 w-16 rounded border border-paper-200 object-cover" />
                     ) : (
                       <span className="h-11 w-16 rounded border border-dashed border-paper-300" aria-hidden="true" />
                     )}
