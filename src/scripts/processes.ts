@@ -16,6 +16,13 @@ export const JEMALLOC = '/usr/lib/x86_64-linux-gnu/libjemalloc.so.2';
  */
 export const JEMALLOC_CONF = 'narenas:1,dirty_decay_ms:-1,muzzy_decay_ms:-1';
 
+/**
+ * How far below the web server a job worker runs (`nice -n`): the worker keeps both cores busy through
+ * a sitting, and a person waiting on a page or a status call should not wait behind an analysis.
+ * The worker loses nothing when the web server is idle.
+ */
+export const WORKER_NICENESS = '10';
+
 /** Environment for the image worker: jemalloc (when installed), set as src/scripts/engine-env.sh sets it. */
 export function workerEnv(env: NodeJS.ProcessEnv): NodeJS.ProcessEnv {
   return fs.existsSync(JEMALLOC) ? { ...env, LD_PRELOAD: JEMALLOC, MALLOC_CONF: JEMALLOC_CONF } : env;

@@ -9,7 +9,7 @@ import path from 'node:path';
 import { closeDb, db } from '../../db/index.ts';
 import { config } from '../lib/server/config.ts';
 import { migrator } from '../lib/server/migrations.ts';
-import { portFree, startProcess, waitForPort, workerEnv, type StackProcess } from './processes.ts';
+import { portFree, startProcess, waitForPort, WORKER_NICENESS, workerEnv, type StackProcess } from './processes.ts';
 import { DEMO_PASSWORD, DEMO_USERS, seedDemo } from '../../db/seeders/demo.ts';
 
 const root = process.cwd();
@@ -119,7 +119,8 @@ class Supervised {
 const procs = [
   new Supervised('mail fake', () => startProcess('mail fake', process.execPath, ['--import', 'tsx', 'src/scripts/mail-fake.ts'], env, path.join(logDir, 'mail-fake.log'))),
   new Supervised('web server', () => startProcess('web server', process.execPath, ['--import', 'tsx', 'src/scripts/serve.ts'], env)),
-  new Supervised('worker', () => startProcess('worker', process.execPath, ['--import', 'tsx', 'jobs/worker.ts'], workerEnv(env), path.join(logDir, 'worker.log'))),
+  // below the web server's priority: a status call or a page waits for no analysis (nice execs, so the pid is the worker's)
+  new Supervised('worker', () => startProcess('worker', 'nice', ['-n', WORKER_NICENESS, process.execPath, '--import', 'tsx', 'jobs/worker.ts'], workerEnv(env), path.join(logDir, 'worker.log'))),
 ];
 
 async function stopAll(code: number) {

@@ -48,8 +48,8 @@ pids+=($!)
 HOST=127.0.0.1 PORT="${APP_URL##*:}" node "$DRAWERLIGHT_OUT_DIR/server/entry.mjs" >"$run/logs/server.log" 2>&1 &
 server_pid=$!
 pids+=($server_pid)
-# as `npm run worker` runs it (exec: the pid is the worker's own)
-sh src/scripts/engine-env.sh node --import tsx jobs/worker.ts >"$run/logs/worker.log" 2>&1 &
+# as `npm run worker` runs it, below the web server's priority (exec and nice both exec: the pid is the worker's own)
+sh src/scripts/engine-env.sh nice -n 10 node --import tsx jobs/worker.ts >"$run/logs/worker.log" 2>&1 &
 worker_pid=$!
 pids+=($worker_pid)
 wait_port "$SMTP_PORT" 'the mail fake'

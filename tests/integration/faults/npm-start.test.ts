@@ -49,6 +49,12 @@ function descendants(pid: number): { pid: number; cmd: string }[] {
   return out;
 }
 
+/** The nice value in a /proc stat file (the 19th field). */
+function niceOf(statFile: string): number {
+  const stat = fs.readFileSync(statFile, 'utf8');
+  return Number(stat.slice(stat.lastIndexOf(')') + 2).split(' ')[16]);
+}
+
 const ROLES = { 'web server': 'src/scripts/serve.ts', worker: 'jobs/worker.ts', 'mail fake': 'src/scripts/mail-fake.ts' } as const;
 type Role = keyof typeof ROLES;
 
@@ -139,6 +145,12 @@ describe('npm start without a terminal', () => {
     const { npm, log } = await npmStart('int');
     const me = () => new Client(a.editor.token, appUrl).get('/api/me');
     expect((await me()).status).toBe(200);
+    // The worker, every thread of it, runs 10 steps below the web server's priority (pages and
+    // status calls wait for no analysis); the web server keeps the priority npm start has.
+    const threadNices = (pid: number) => fs.readdirSync(`/proc/${pid}/task`).map((tid) => niceOf(`/proc/${pid}/task/${tid}/stat`));
+    const serverNice = niceOf(`/proc/${pidOf(npm.pid!, 'web server')}/stat`);
+    expect(niceOf(`/proc/${npm.pid}/stat`)).toBe(serverNice);
+    expect(new Set(threadNices(pidOf(npm.pid!, 'worker')!))).toEqual(new Set([serverNice + 10]));
 
     for (const role of ['worker', 'web server', 'mail fake'] as Role[]) {
       const before = Object.fromEntries((Object.keys(ROLES) as Role[]).map((r) => [r, pidOf(npm.pid!, r)]));
