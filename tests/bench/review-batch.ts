@@ -243,6 +243,9 @@ async function measure(archive: TestArchive, browser: Awaited<ReturnType<typeof 
   const elements = await countElements();
   const chartElements = await page.evaluate(() => document.querySelectorAll('[data-batch-chart] svg *').length);
   const chartKind = await page.locator('[data-scatter]').getAttribute('data-scatter');
+  // what the chart and the first rows look like at this size, kept with the tests' screenshots
+  fs.mkdirSync(path.resolve('tests/artifacts'), { recursive: true });
+  await page.screenshot({ path: path.resolve('tests/artifacts/bench-batch-page.png') });
 
   const scrollDown = () =>
     frames(page, async () => {

@@ -11,7 +11,8 @@ interface Props {
   lead?: string;
 }
 
-const plural = (n: number, one: string, many = `${one}s`) => `${n} ${n === 1 ? one : many}`;
+const n = (x: number) => x.toLocaleString('en-GB');
+const plural = (x: number, one: string, many = `${one}s`) => `${n(x)} ${x === 1 ? one : many}`;
 
 export default function BatchTally({ initial, lead }: Props) {
   const [tally, setTally] = useState(initial);
@@ -23,7 +24,7 @@ export default function BatchTally({ initial, lead }: Props) {
   return (
     <p className="mt-1 text-sm text-ink-700" data-batch-tally data-prints={tally.prints} data-decided={tally.decided} data-captioned={tally.captioned} aria-live="polite">
       {lead && `${lead} · `}
-      {plural(tally.prints, 'print')} · {tally.decided} decided · {tally.captioned} captioned
+      {plural(tally.prints, 'print')} · {n(tally.decided)} decided · {n(tally.captioned)} captioned
     </p>
   );
 }
