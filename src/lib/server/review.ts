@@ -7,7 +7,7 @@ import { randomUUID } from 'node:crypto';
 import sharp from 'sharp';
 import { Op, type Transaction } from 'sequelize';
 import { Archive, AuditEvent, Batch, Correction, Item, Original, User, db } from '../../../db/index.ts';
-import { correctionSchema, applyCorrection, buildChannelLuts, type Correction as CorrectionParams } from '../restoration/correction.ts';
+import { correctionSchema, applyCorrection, applyGeometry, buildChannelLuts, geometryPlan, hasGeometry, type Correction as CorrectionParams } from '../restoration/correction.ts';
 import { probeScan } from '../restoration/imaging.ts';
 import type { Analysis } from '../restoration/analysis.ts';
 import { DEFAULT_TIME_ZONE, formatWhen } from '../archive/when.ts';
@@ -423,8 +423,11 @@ export async function cropImage(item: Item, q: CropQuery): Promise<{ body: Buffe
   let body: Buffer;
   if (params) {
     const { data, info } = await img.removeAlpha().raw().toBuffer({ resolveWithObject: true });
-    const out = applyCorrection(new Uint8Array(data.buffer, data.byteOffset, data.length), info.channels, buildChannelLuts(params, 8, 8)) as Uint8Array;
-    body = await sharp(Buffer.from(out.buffer, out.byteOffset, out.byteLength), { raw: { width: info.width, height: info.height, channels: info.channels as 3 } })
+    const coloured = applyCorrection(new Uint8Array(data.buffer, data.byteOffset, data.length), info.channels, buildChannelLuts(params, 8, 8)) as Uint8Array;
+    // the whole print is framed as its render is (turns and crop); a region stays in the upright scan's pixels
+    const framed = whole && hasGeometry(params) ? applyGeometry(coloured, info.width, info.height, info.channels, geometryPlan(params, info.width, info.height)) : { data: coloured, width: info.width, height: info.height };
+    const out = framed.data;
+    body = await sharp(Buffer.from(out.buffer, out.byteOffset, out.byteLength), { raw: { width: framed.width, height: framed.height, channels: info.channels as 3 } })
       .jpeg({ quality: 90 })
       .toBuffer();
   } else {

@@ -92,6 +92,11 @@ describe('the newer controls in a saved version', () => {
     // the corrected small copies are turned too: taller than wide
     const thumb = await sharp(await bytes(`/api/items/${id}/thumbnail?of=corrected`)).metadata();
     expect(thumb.height!).toBeGreaterThan(thumb.width!);
+    // and so is the whole corrected print served reduced (a region stays in the upright scan's pixels)
+    const whole = await sharp(await bytes(`/api/items/${id}/crop?of=corrected&max=300`)).metadata();
+    expect([whole.width, whole.height]).toEqual([180, 240]);
+    const region = await sharp(await bytes(`/api/items/${id}/crop?of=corrected&x=0&y=0&w=100&h=50`)).metadata();
+    expect([region.width, region.height]).toEqual([100, 50]);
   });
 
   it('refuses a tone curve that goes down and a crop outside the scan, saving nothing', async () => {
