@@ -24,7 +24,8 @@ import { peopleOf } from './captions.ts';
 import { currentRenderKey } from './renders.ts';
 import { config } from './config.ts';
 import { Conflict, InvalidInput, NotFound } from './errors.ts';
-import { linkMail, sendMail } from './mailer.ts';
+import { queueMail } from './mail-queue.ts';
+import { linkMail } from './mailer.ts';
 import { DEAD_LETTER_QUEUE, declareQueue, queue } from './queue.ts';
 import { storage } from './storage.ts';
 
@@ -368,7 +369,8 @@ async function notifyReady(e: ArchiveExport, archive: Archive): Promise<void> {
   const user = e.requestedBy ? await User.findByPk(e.requestedBy) : null;
   if (!user) return;
   const mb = ((e.zipBytes ?? 0) / 1048576).toFixed(1);
-  await sendMail(
+  // through the mail queue: the export is already marked ready, so a send that failed here would be lost
+  await queueMail(
     linkMail(
       user.email,
       `Your export of the ${archive.name} is ready`,
