@@ -8,6 +8,7 @@
 import { writeFileSync } from 'node:fs';
 import { labCases } from './cases';
 import type { Part } from './photos';
+import { rankCorrelation } from './metrics';
 import { METHODS, runCases, type CaseResult } from './run-cases';
 
 function arg(name: string): string | undefined {
@@ -16,29 +17,6 @@ function arg(name: string): string | undefined {
 }
 
 const mean = (xs: number[]) => (xs.length ? xs.reduce((a, b) => a + b, 0) / xs.length : NaN);
-
-/** Spearman rank correlation. */
-function rankCorrelation(a: number[], b: number[]): number {
-  const rank = (xs: number[]) => {
-    const idx = xs.map((_, i) => i).sort((i, j) => xs[i] - xs[j]);
-    const r = new Array<number>(xs.length);
-    idx.forEach((i, k) => (r[i] = k));
-    return r;
-  };
-  const ra = rank(a);
-  const rb = rank(b);
-  const ma = mean(ra);
-  const mb = mean(rb);
-  let num = 0;
-  let da = 0;
-  let db = 0;
-  for (let i = 0; i < ra.length; i++) {
-    num += (ra[i] - ma) * (rb[i] - mb);
-    da += (ra[i] - ma) ** 2;
-    db += (rb[i] - mb) ** 2;
-  }
-  return num / Math.sqrt(da * db);
-}
 
 /** The figures of one part, as `name: value` lines. */
 export function figures(results: CaseResult[], prefix: string): string[] {

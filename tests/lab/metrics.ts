@@ -113,3 +113,26 @@ export function meanDeltaE00(a: Uint8Array, refLab: Float64Array, points: Int32A
   for (let k = 0; k < points.length; k++) sum += ciede2000(lab, refLab, k * 3, k * 3);
   return sum / Math.max(1, points.length);
 }
+
+/** Spearman rank correlation. */
+export function rankCorrelation(a: number[], b: number[]): number {
+  const rank = (xs: number[]) => {
+    const idx = xs.map((_, i) => i).sort((i, j) => xs[i] - xs[j]);
+    const r = new Array<number>(xs.length);
+    idx.forEach((i, k) => (r[i] = k));
+    return r;
+  };
+  const ra = rank(a);
+  const rb = rank(b);
+  const ma = (ra.length - 1) / 2;
+  const mb = ma;
+  let num = 0;
+  let da = 0;
+  let db = 0;
+  for (let i = 0; i < ra.length; i++) {
+    num += (ra[i] - ma) * (rb[i] - mb);
+    da += (ra[i] - ma) ** 2;
+    db += (rb[i] - mb) ** 2;
+  }
+  return num / Math.sqrt(da * db);
+}

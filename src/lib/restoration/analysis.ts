@@ -19,7 +19,7 @@
  */
 import { densityFromReflectance, deltaE2000, reflectanceFromDensity, srgbDecode, srgbEncode, srgbToLab, type Triplet } from './colour';
 import { CORRECTION_VERSION, LITTLE_ENDIAN, identityCorrection, type Correction } from './correction';
-import { estimateAgeing, expectedError, type FittedPriors, type ModelEstimate } from './print-model';
+import { estimateAgeing, estimateVariance, expectedError, type FittedPriors, type ModelEstimate } from './print-model';
 import { PRIORS } from './priors';
 
 /** Pixels handed to the analysis: interleaved, sRGB-encoded, already oriented and reduced. */
@@ -642,14 +642,19 @@ export function poolAnalyses(analyses: Analysis[]): Analysis[] {
   const withEstimate = analyses.filter((a) => a.estimate);
   if (withEstimate.length < 2) return analyses.slice();
   const jitter = PRIORS.packJitter;
-  const varK = (a: Analysis) => Math.max(a.estimate!.spreadK, 0.02) ** 2;
-  const varS = (a: Analysis) => (a.estimate!.borderStain ? 0.005 ** 2 : Math.max(a.estimate!.spreadS, 0.01) ** 2);
+  const varK = (a: Analysis) => estimateVariance(a.estimate!).k;
+  const varS = (a: Analysis) => (a.estimate!.borderStain ? 0.005 ** 2 : estimateVariance(a.estimate!).s);
   const total = (f: (a: Analysis) => number) => withEstimate.reduce((acc, a) => acc + f(a), 0);
   const precisionK = total((a) => 1 / varK(a));
   const precisionS = total((a) => 1 / varS(a));
   const sumK = [0, 1, 2].map((c) => total((a) => -Math.log(a.estimate!.k[c]) / varK(a)));
   const sumS = [0, 1, 2].map((c) => total((a) => a.estimate!.s[c] / varS(a)));
-  const agedMean = total((a) => a.estimate!.aged) / withEstimate.length;
+  // whether the pack aged: the members' log-odds averaged and scaled by the square root of their
+  // number, so that evidence adds up over prints that aged together but not as if each were
+  // independent (our own choice between the two, checked on the lab's development packs)
+  const logit = (p: number) => Math.log(clamp(p, 1e-4, 1 - 1e-4) / (1 - clamp(p, 1e-4, 1 - 1e-4)));
+  const packLogit = (total((a) => logit(a.estimate!.aged)) / withEstimate.length) * Math.sqrt(withEstimate.length);
+  const agedPack = 1 / (1 + Math.exp(-packLogit));
   return analyses.map((a) => {
     const e = a.estimate;
     if (!e) return a;
@@ -672,7 +677,7 @@ export function poolAnalyses(analyses: Analysis[]): Analysis[] {
       {
         k: a.monochrome ? ([0, 0, 0].map(() => (k[0] + k[1] + k[2]) / 3) as Triplet) : k,
         s: yellowingOnly(s),
-        aged: 0.3 * e.aged + 0.7 * agedMean,
+        aged: agedPack,
         spreadK: Math.sqrt(1 / (1 / varK(a) + 1 / priorVarK)),
         spreadS: e.borderStain ? e.spreadS : Math.sqrt(1 / (1 / varS(a) + 1 / priorVarS)),
         borderStain: e.borderStain,

@@ -27,9 +27,15 @@ export interface FittedPriors {
   /** Strength of the correction from the probability of ageing: 0 below `from`, 1 above `to`. */
   decision: { from: number; to: number };
   /** Expected CIEDE2000 of a correction: intercept, then per unit of each uncertainty term. */
-  calibration: { intercept: number; perSpreadK: number; perSpreadS: number; perDoubt: number };
+  /** `perSize`: per unit of the correction's size (mean |ln k| plus the spread of s over the channels). */
+  calibration: { intercept: number; perSpreadK: number; perSpreadS: number; perDoubt: number; perSize?: number };
   /** How far prints of one pack differ in their ageing: standard deviations of -ln k and s. */
   packJitter: { k: number; s: number };
+  /**
+   * How far a print's estimate is from its truth, as a variance: c0 + c1 · spread² of -ln k and of s
+   * (held-out residuals on the development part). The members' disagreement alone understates it.
+   */
+  errorModel?: { k: [number, number]; s: [number, number] };
 }
 
 /** Number of outputs of a network: six regression values and one logit. */
@@ -101,8 +107,22 @@ export function estimateAgeing(features: ArrayLike<number>, priors: FittedPriors
 }
 
 /** Expected CIEDE2000 of the correction made from an estimate, from its uncertainty (fitted on the development part). */
-export function expectedError(e: Pick<ModelEstimate, 'spreadK' | 'spreadS' | 'aged'>, priors: FittedPriors = PRIORS): number {
+export function expectedError(e: Pick<ModelEstimate, 'spreadK' | 'spreadS' | 'aged' | 'k' | 's'>, priors: FittedPriors = PRIORS): number {
   const c = priors.calibration;
-  const doubt = 1 - Math.abs(2 * e.aged - 1);
-  return Math.max(0, c.intercept + c.perSpreadK * e.spreadK + c.perSpreadS * e.spreadS + c.perDoubt * doubt);
+  const terms = uncertaintyTerms(e);
+  return Math.max(0, c.intercept + c.perSpreadK * terms.spreadK + c.perSpreadS * terms.spreadS + c.perDoubt * terms.doubt + (c.perSize ?? 0) * terms.size);
+}
+
+/** What the expected error is made of: the members' disagreement, doubt whether the print aged, and how large the correction is. */
+export function uncertaintyTerms(e: Pick<ModelEstimate, 'spreadK' | 'spreadS' | 'aged' | 'k' | 's'>): { spreadK: number; spreadS: number; doubt: number; size: number } {
+  const lnK = (Math.abs(Math.log(e.k[0])) + Math.abs(Math.log(e.k[1])) + Math.abs(Math.log(e.k[2]))) / 3;
+  const size = lnK + Math.max(...e.s) - Math.min(...e.s);
+  return { spreadK: e.spreadK, spreadS: e.spreadS, doubt: 1 - Math.abs(2 * e.aged - 1), size };
+}
+
+/** Variance of a print's estimated -ln k and s around their truth (for pooling a batch). */
+export function estimateVariance(e: Pick<ModelEstimate, 'spreadK' | 'spreadS'>, priors: FittedPriors = PRIORS): { k: number; s: number } {
+  const m = priors.errorModel;
+  if (!m) return { k: Math.max(e.spreadK, 0.02) ** 2, s: Math.max(e.spreadS, 0.01) ** 2 };
+  return { k: Math.max(m.k[0] + m.k[1] * e.spreadK ** 2, 0.02 ** 2), s: Math.max(m.s[0] + m.s[1] * e.spreadS ** 2, 0.01 ** 2) };
 }

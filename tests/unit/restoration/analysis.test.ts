@@ -94,6 +94,19 @@ describe('poolAnalyses', () => {
     expect(Math.abs(pooled[0].estimate!.k[0] - 0.6)).toBeLessThan(0.01);
   });
 
+  it("adds up the pack's evidence of ageing: prints each fairly sure they aged are corrected together, prints each unsure stay as they are", () => {
+    const likely = Array.from({ length: 10 }, () => ({ ...withEstimate(base, [0.7, 0.8, 0.8], [0.02, 0.05, 0.1], 0.05), estimate: { k: [0.7, 0.8, 0.8] as [number, number, number], s: [0.02, 0.05, 0.1] as [number, number, number], aged: 0.7, spreadK: 0.05, spreadS: 0.02, borderStain: false } }));
+    const pooledLikely = poolAnalyses(likely);
+    pooledLikely.forEach((p) => expect(p.estimate!.aged).toBeGreaterThan(0.9));
+    expect(isIdentity(pooledLikely[0].proposed)).toBe(false);
+    expect(pooledLikely[0].proposed.strength).toBeGreaterThan(strengthFor(0.7));
+    const doubtful = likely.map((a) => ({ ...a, estimate: { ...a.estimate!, aged: 0.3 } }));
+    poolAnalyses(doubtful).forEach((p) => {
+      expect(p.estimate!.aged).toBeLessThan(0.3);
+      expect(isIdentity(p.proposed)).toBe(true);
+    });
+  });
+
   it('keeps a stain measured on a print\'s own border, and leaves analyses without an estimate as they were', () => {
     const a = withEstimate(base, [0.7, 0.8, 0.8], [0.01, 0.05, 0.2], 0.05, true);
     const b = withEstimate(base, [0.7, 0.8, 0.8], [0.0, 0.0, 0.0], 0.05);
