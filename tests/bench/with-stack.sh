@@ -45,7 +45,7 @@ node --import tsx src/scripts/migrate.ts >"$run/logs/migrate.log" 2>&1 || { cat 
 
 node --import tsx src/scripts/mail-fake.ts >"$run/logs/mail-fake.log" 2>&1 &
 pids+=($!)
-HOST=127.0.0.1 PORT="${APP_URL##*:}" node "$DRAWERLIGHT_OUT_DIR/server/entry.mjs" >"$run/logs/server.log" 2>&1 &
+NODE_ENV=production HOST=127.0.0.1 PORT="${APP_URL##*:}" node "$DRAWERLIGHT_OUT_DIR/server/entry.mjs" >"$run/logs/server.log" 2>&1 &
 server_pid=$!
 pids+=($server_pid)
 # as `npm run worker` runs it, below the web server's priority (exec and nice both exec: the pid is the worker's own)
