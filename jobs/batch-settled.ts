@@ -71,7 +71,7 @@ async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
         {
           currentVersion: version,
           fadeGrade: result.fadeGrade,
-          analysis: { ...(own[n] as unknown as Record<string, unknown>), pooled: result.pooled, pooledResult: { fadeGrade: result.fadeGrade, confidence: result.confidence, expectedDeltaE00: result.expectedDeltaE00, dyes: result.dyes, proposed: result.proposed } },
+          analysis: { ...(own[n] as unknown as Record<string, unknown>), pooled: result.pooled, pooledResult: { fadeGrade: result.fadeGrade, yellowingGrade: result.yellowingGrade, confidence: result.confidence, expectedDeltaE00: result.expectedDeltaE00, dyes: result.dyes, proposed: result.proposed } },
         },
         { where: { id: item.id }, transaction },
       );

@@ -71,6 +71,32 @@ describe('reviewing a batch in the browser', () => {
     await snap(page, 'review-01-batch');
   });
 
+  it("shows on a print's page how far its dyes faded and, apart from that, how far its paper yellowed", async () => {
+    const api = asToken(archive.editor);
+    let yellowed = 0;
+    for (const it of items) {
+      const res = await api.get(`/api/items/${it.id}`);
+      // the batch's pooled estimate, where it replaced the print's own, is what the page shows
+      const item = res.body.item as { fadeGrade: string; analysis: { yellowingGrade: string; pooledResult?: { yellowingGrade: string } } };
+      const analysis = { fadeGrade: item.fadeGrade, yellowingGrade: item.analysis.pooledResult?.yellowingGrade ?? item.analysis.yellowingGrade };
+      await page.goto(`${BASE}/items/${it.id}`);
+      await page.waitForSelector('[data-review-workbench]');
+      expect(await page.locator('[data-grade]').getAttribute('data-grade')).toBe(analysis.fadeGrade);
+      const badge = page.locator('[data-yellowing-grade]');
+      if (analysis.yellowingGrade === 'none') {
+        expect(await badge.count()).toBe(0);
+      } else {
+        yellowed++;
+        expect(await badge.getAttribute('data-yellowing-grade')).toBe(analysis.yellowingGrade);
+        expect(await badge.innerText()).toMatch(/^Paper yellowing: (Slight|Moderate|Severe)$/);
+      }
+    }
+    // two of the three scans aged in dark storage, which yellows the paper base
+    expect(yellowed).toBeGreaterThan(0);
+    await page.goto(`${BASE}/batches/${batchId}`);
+    await page.waitForSelector('[data-batch-table] [data-item-row]');
+  });
+
   it('drags the split, and the drawn split line follows', async () => {
     await page.click('[data-start-review]');
     await page.waitForURL(`**/items/${items[0].id}`);

@@ -106,7 +106,9 @@ export default function ReviewWorkbench({ item: initial, queue: initialQueue, ca
   const position = queue.findIndex((q) => q.id === shown.id);
   const reviewed = queue.filter((q) => q.decision).length;
   const grade = shown.fadeGrade as FadeGradeName | null;
-  const pooledExpected = (shown.analysis as { pooledResult?: { expectedDeltaE00?: number } } | null)?.pooledResult?.expectedDeltaE00;
+  const pooledResult = (shown.analysis as { pooledResult?: { expectedDeltaE00?: number; yellowingGrade?: FadeGradeName } } | null)?.pooledResult;
+  const yellowing = pooledResult?.yellowingGrade ?? shown.analysis?.yellowingGrade;
+  const pooledExpected = pooledResult?.expectedDeltaE00;
   const expected = pooledExpected ?? shown.analysis?.expectedDeltaE00;
 
   return (
@@ -115,6 +117,11 @@ export default function ReviewWorkbench({ item: initial, queue: initialQueue, ca
         <a href={`/batches/${shown.batchId}`} className="text-sm text-lamp-700 underline-offset-2 hover:underline">← {shown.batchName || 'Batch'}</a>
         <h1 className="text-xl">Print {shown.seq} <span className="font-normal text-ink-500">· {shown.originalName}</span></h1>
         {grade && <span className="rounded-full bg-paper-100 px-2.5 py-0.5 text-xs font-medium text-ink-700" data-grade={grade}>Fading: {GRADE_WORDS[grade] ?? grade}</span>}
+        {yellowing && yellowing !== 'none' && (
+          <span className="rounded-full bg-paper-100 px-2.5 py-0.5 text-xs font-medium text-ink-700" data-yellowing-grade={yellowing}>
+            Paper yellowing: {GRADE_WORDS[yellowing] ?? yellowing}
+          </span>
+        )}
         {shown.analysis?.rescanAdvised && <span className="rounded-full bg-warn-100 px-2.5 py-0.5 text-xs font-medium text-warn-700">Negative would help</span>}
         {typeof expected === 'number' && (
           <span

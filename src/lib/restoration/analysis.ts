@@ -71,7 +71,10 @@ export interface Analysis {
     confidence: number;
   };
   dyes: { cyan: DyeEstimate; magenta: DyeEstimate; yellow: DyeEstimate };
+  /** How far the dyes have faded (from `dyeLoss`). */
   fadeGrade: FadeGrade;
+  /** How far the paper base has yellowed (from `stain`); absent in analyses made before it existed. */
+  yellowingGrade?: FadeGrade;
   /** Largest dye loss of the proposed correction, 0..1 (ISO 18909 expresses fading as this loss). */
   dyeLoss: number;
   /** Yellowing of the paper base: blue stain density above the red. */
@@ -109,12 +112,21 @@ export const FADE_GRADE_THRESHOLDS = {
   moderate: { dyeLoss: 0.3, stain: 0.15 },
 } as const;
 
-/** Grades a print from its largest dye loss (0..1) and largest stain density. */
-export function gradeFade(dyeLoss: number, stain: number): FadeGrade {
+/** Grades the fading of a print's dyes from their largest loss (0..1); yellowing has a grade of its own. */
+export function gradeFade(dyeLoss: number): FadeGrade {
   const t = FADE_GRADE_THRESHOLDS;
-  if (dyeLoss < t.none.dyeLoss && stain < t.none.stain) return 'none';
-  if (dyeLoss < t.slight.dyeLoss && stain < t.slight.stain) return 'slight';
-  if (dyeLoss < t.moderate.dyeLoss && stain <= t.moderate.stain) return 'moderate';
+  if (dyeLoss < t.none.dyeLoss) return 'none';
+  if (dyeLoss < t.slight.dyeLoss) return 'slight';
+  if (dyeLoss < t.moderate.dyeLoss) return 'moderate';
+  return 'severe';
+}
+
+/** Grades the yellowing of the paper base from its stain density (blue above red). */
+export function gradeYellowing(stain: number): FadeGrade {
+  const t = FADE_GRADE_THRESHOLDS;
+  if (stain < t.none.stain) return 'none';
+  if (stain < t.slight.stain) return 'slight';
+  if (stain <= t.moderate.stain) return 'moderate';
   return 'severe';
 }
 
@@ -550,7 +562,7 @@ function analysisFrom(
   const dyeLoss = Math.max(0, 1 - Math.min(...kEff));
   const stainRel = est.s.map((s) => t * (s - Math.min(...est.s))) as Triplet;
   const yellowing = Math.max(0, stainRel[2] - stainRel[0]);
-  const fadeGrade = gradeFade(dyeLoss, yellowing);
+  const fadeGrade = gradeFade(dyeLoss);
   const expected = expectedError(est);
   const confidence = clamp(1 - expected / 8, 0, 1);
   const dyeConfidence = clamp(1 - est.spreadK / 0.15, 0, 1);
@@ -565,6 +577,7 @@ function analysisFrom(
     paperBase: paper,
     dyes: { cyan: dye(0), magenta: dye(1), yellow: dye(2) },
     fadeGrade,
+    yellowingGrade: gradeYellowing(yellowing),
     dyeLoss: round(dyeLoss, 4),
     stain: round(yellowing, 4),
     monochrome,

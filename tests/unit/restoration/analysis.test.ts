@@ -6,7 +6,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { generateScene, type ScenePixels } from '../../../src/lib/demo/synthetic';
-import { FADE_GRADE_THRESHOLDS, analysePixels, correctionFromAgeing, gradeFade, poolAnalyses, strengthFor, type Analysis } from '../../../src/lib/restoration/analysis';
+import { FADE_GRADE_THRESHOLDS, analysePixels, analysisFromModel, correctionFromAgeing, gradeFade, gradeYellowing, poolAnalyses, strengthFor, type Analysis } from '../../../src/lib/restoration/analysis';
 import { densityFromReflectance, reflectanceFromDensity, srgbDecode, srgbEncode } from '../../../src/lib/restoration/colour';
 import { applyCorrection, buildChannelLuts, isIdentity } from '../../../src/lib/restoration/correction';
 import { PRIORS } from '../../../src/lib/restoration/priors';
@@ -66,14 +66,24 @@ describe('analysePixels', () => {
 });
 
 describe('gradeFade thresholds (ISO 18909: 30 % loss from D = 1.0 as end point; losses under 15-20 % rarely noticed, a film maker\'s published print-life note; stain end point 0.10-0.15, from memory)', () => {
-  it('grades by dye loss and stain', () => {
+  it('grades the dyes by their loss alone, and the yellowing of the paper by its stain alone', () => {
     expect(FADE_GRADE_THRESHOLDS.moderate.dyeLoss).toBe(0.3);
-    expect(gradeFade(0, 0)).toBe('none');
-    expect(gradeFade(0.1, 0)).toBe('slight');
-    expect(gradeFade(0.2, 0)).toBe('moderate');
-    expect(gradeFade(0.3, 0)).toBe('severe');
-    expect(gradeFade(0.05, 0.12)).toBe('moderate');
-    expect(gradeFade(0.05, 0.2)).toBe('severe');
+    expect(gradeFade(0)).toBe('none');
+    expect(gradeFade(0.1)).toBe('slight');
+    expect(gradeFade(0.2)).toBe('moderate');
+    expect(gradeFade(0.3)).toBe('severe');
+    expect(gradeYellowing(0)).toBe('none');
+    expect(gradeYellowing(0.05)).toBe('slight');
+    expect(gradeYellowing(0.12)).toBe('moderate');
+    expect(gradeYellowing(0.2)).toBe('severe');
+  });
+
+  it('shows a print whose dyes kept all their density but whose paper yellowed as not faded, with yellowed paper', () => {
+    // all three dyes at 100 % (k = 1) under a yellow-brown stain, corrected at full strength
+    const a = analysisFromModel({ k: [1, 1, 1], s: [0.01, 0.06, 0.2], aged: 1, spreadK: 0.01, spreadS: 0.01 }, { features: [], border: null, monochrome: false });
+    expect(a.fadeGrade).toBe('none');
+    expect(a.yellowingGrade).toBe('severe');
+    expect(a.rescanAdvised).toBe(false);
   });
 });
 

@@ -1,6 +1,6 @@
 /** The review workbench's pure helpers: value lists in step with the models, adjustments, the preview. */
 import { describe, expect, it } from 'vitest';
-import { FADE_GRADE_THRESHOLDS, gradeFade } from '../../../src/lib/restoration/analysis.ts';
+import { FADE_GRADE_THRESHOLDS, gradeFade, gradeYellowing } from '../../../src/lib/restoration/analysis.ts';
 import { identityCorrection } from '../../../src/lib/restoration/correction.ts';
 import { dyeGain, renderPreview, samplePatch, sameCorrection, withDyeGain, withStrength, withWhitePoint } from '../../../src/lib/review/adjust.ts';
 import { FADE_GRADES, SHORTCUTS } from '../../../src/lib/review/words.ts';
@@ -8,8 +8,10 @@ import { decisionInput } from '../../../src/lib/review/schemas.ts';
 
 describe('review words', () => {
   it('lists every grade the engine can give', () => {
-    const seen = new Set([gradeFade(0, 0), gradeFade(0.1, 0.05), gradeFade(0.2, 0.12), gradeFade(0.5, 0.3)]);
+    const seen = new Set([gradeFade(0), gradeFade(0.1), gradeFade(0.2), gradeFade(0.5)]);
     expect([...seen].sort()).toEqual([...FADE_GRADES].sort());
+    const yellowing = new Set([gradeYellowing(0), gradeYellowing(0.05), gradeYellowing(0.12), gradeYellowing(0.3)]);
+    expect([...yellowing].sort()).toEqual([...FADE_GRADES].sort());
     expect(FADE_GRADE_THRESHOLDS.slight.dyeLoss).toBe(0.15);
   });
 
