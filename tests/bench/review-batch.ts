@@ -23,12 +23,13 @@ import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { Readable } from 'node:stream';
-import { chromium, type Page } from 'playwright-core';
+import type { BrowserContext, Page } from 'playwright-core';
 import sharp from 'sharp';
 import { Batch, Item, ItemPerson, Original, Person } from '../../db/index.ts';
 import { AGEING_MODELS, syntheticScan } from '../../src/lib/demo/synthetic.ts';
 import { storage } from '../../src/lib/server/storage.ts';
 import { TEST_PASSWORD, type TestArchive } from '../support/fixtures.ts';
+import { launchBrowser } from '../support/browser.ts';
 import { Client, signedIn } from '../support/http.ts';
 
 const BASE = process.env.APP_URL!;
@@ -186,22 +187,15 @@ async function apiTimes(client: Client, path: string): Promise<{ ms: number; kb:
 
 /** Seeds the batches, measures, prints the figures. */
 export async function benchBatchPage(archive: TestArchive): Promise<void> {
-  const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'drawerlight-bench-chromium-'));
-  const browser = await chromium.launchPersistentContext(dir, {
-    executablePath: '/usr/bin/chromium',
-    headless: true,
-    viewport: { width: 1600, height: 1000 },
-    args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-  });
+  const browser = await launchBrowser({ viewport: { width: 1600, height: 1000 } });
   try {
     await measure(archive, browser);
   } finally {
     await browser.close();
-    fs.rmSync(dir, { recursive: true, force: true });
   }
 }
 
-async function measure(archive: TestArchive, browser: Awaited<ReturnType<typeof chromium.launchPersistentContext>>): Promise<void> {
+async function measure(archive: TestArchive, browser: BrowserContext): Promise<void> {
   const client = new Client(archive.editor.token);
   const template = await analysedTemplate(client);
   const s0 = performance.now();

@@ -17,13 +17,10 @@
  * Targets (issue 5): p95 frame < 20 ms; slider to screen < 50 ms.
  * Ends with `split_drag_p95_ms: <n>` and `slider_to_screen_ms: <n>`.
  */
-import fs from 'node:fs';
-import os from 'node:os';
-import path from 'node:path';
-import { chromium } from 'playwright-core';
 import { closeDb } from '../../db/index.ts';
 import { AGEING_MODELS, syntheticScan } from '../../src/lib/demo/synthetic.ts';
 import { makeArchive, TEST_PASSWORD } from '../support/fixtures.ts';
+import { launchBrowser } from '../support/browser.ts';
 import { Client } from '../support/http.ts';
 import { benchBatchPage } from './review-batch.ts';
 
@@ -65,13 +62,7 @@ async function main() {
     return;
   }
   const itemId = await readyItem(archive.editor.token);
-  const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'drawerlight-bench-chromium-'));
-  const browser = await chromium.launchPersistentContext(dir, {
-    executablePath: '/usr/bin/chromium',
-    headless: true,
-    viewport: { width: 1600, height: 1000 },
-    args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-  });
+  const browser = await launchBrowser({ viewport: { width: 1600, height: 1000 } });
   try {
     const page = await browser.newPage();
     // tsx keeps function names with a __name helper that does not exist inside the page
@@ -195,7 +186,6 @@ async function main() {
     console.log(`slider_to_screen_ms: ${fmt(p(slider, 0.95))}`);
   } finally {
     await browser.close();
-    fs.rmSync(dir, { recursive: true, force: true });
     await closeDb();
   }
 }
