@@ -7,7 +7,7 @@
  */
 import sharp from 'sharp';
 import { closeDb } from '../db/index.ts';
-import { runExport } from '../src/lib/server/export.ts';
+import { runExport } from '../src/lib/server/export/job.ts';
 
 sharp.cache(false);
 const exportId = process.argv[2];

@@ -1,5 +1,5 @@
 /**
- * The export queue: writes one export's BagIt zip (src/lib/server/export.ts). One export at a
+ * The export queue: writes one export's BagIt zip (src/lib/server/export/job.ts). One export at a
  * time per worker: an export is long and mostly disk and JPEG work, and the analyses share the cores.
  * Each export runs in a child process that ends with it (jobs/export-run.ts), so the worker's own
  * memory stays what its analyses need (an export once left the worker holding 9 GB).
@@ -8,7 +8,7 @@ import { spawn, type ChildProcess } from 'node:child_process';
 import path from 'node:path';
 import type PgBoss from 'pg-boss';
 import { config } from '../src/lib/server/config.ts';
-import { EXPORT_QUEUE, resumeStalledExports, type ExportJob } from '../src/lib/server/export.ts';
+import { EXPORT_QUEUE, resumeStalledExports, type ExportJob } from '../src/lib/server/export/queue.ts';
 import type { JobHandler } from './registry.ts';
 
 const running = new Set<ChildProcess>();

@@ -9,7 +9,7 @@ import { copiedCorrection, type CorrectionCopyInput } from '../review/correction
 import { recordAudit } from './audit.ts';
 import { AppError, Conflict, InvalidInput } from './errors.ts';
 import { requestRender } from './processing.ts';
-import { itemForRole } from './review.ts';
+import { itemForRole } from './review/access.ts';
 
 export interface CopyResult {
   from: { id: string; version: number };

@@ -1,5 +1,5 @@
 import { idParam } from '../../../lib/server/access.ts';
-import { exportForCaller, exportStatus } from '../../../lib/server/export.ts';
+import { exportForCaller, exportStatus } from '../../../lib/server/export/status.ts';
 import { apiRoute, json } from '../../../lib/server/http.ts';
 
 /** An export's state and progress (editors). */

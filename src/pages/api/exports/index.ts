@@ -1,6 +1,7 @@
 import { requireCurrentArchive } from '../../../lib/server/access.ts';
 import { exportRequestSchema } from '../../../lib/archive/exports.ts';
-import { listExports, requestExport } from '../../../lib/server/export.ts';
+import { listExports } from '../../../lib/server/export/status.ts';
+import { requestExport } from '../../../lib/server/export/request.ts';
 import { apiRoute, json, parseInput, readJson } from '../../../lib/server/http.ts';
 
 /** The current archive's exports, newest first (editors). */

@@ -1,7 +1,7 @@
 import { Archive } from '../../../../../db/index.ts';
 import { idParam } from '../../../../lib/server/access.ts';
 import { Conflict, NotFound } from '../../../../lib/server/errors.ts';
-import { exportFileName, exportForCaller } from '../../../../lib/server/export.ts';
+import { exportFileName, exportForCaller } from '../../../../lib/server/export/status.ts';
 import { apiRoute, pacedBody } from '../../../../lib/server/http.ts';
 import { storage } from '../../../../lib/server/storage.ts';
 

@@ -1,6 +1,8 @@
 import { idParam } from '../../../../lib/server/access.ts';
 import { apiRoute, json, parseInput, readJson } from '../../../../lib/server/http.ts';
-import { correctionHistory, itemForRole, saveCorrection } from '../../../../lib/server/review.ts';
+import { correctionHistory } from '../../../../lib/server/review/history.ts';
+import { itemForRole } from '../../../../lib/server/review/access.ts';
+import { saveCorrection } from '../../../../lib/server/review/versions.ts';
 import { correctionInput } from '../../../../lib/review/schemas.ts';
 
 /** Every version of the print's correction, oldest first, with the current and rendered version. */

@@ -1,7 +1,8 @@
 import { idParam } from '../../../../lib/server/access.ts';
 import { apiRoute } from '../../../../lib/server/http.ts';
 import { parseInput } from '../../../../lib/server/http.ts';
-import { cropImage, itemForRole } from '../../../../lib/server/review.ts';
+import { cropImage } from '../../../../lib/server/review/crops.ts';
+import { itemForRole } from '../../../../lib/server/review/access.ts';
 import { cropQuery } from '../../../../lib/review/schemas.ts';
 
 /**

@@ -1,7 +1,8 @@
 import type { APIContext } from 'astro';
 import { idParam } from '../../../../lib/server/access.ts';
 import { apiRoute, json, parseInput, readJson } from '../../../../lib/server/http.ts';
-import { decide, itemForRole } from '../../../../lib/server/review.ts';
+import { decide } from '../../../../lib/server/review/decisions.ts';
+import { itemForRole } from '../../../../lib/server/review/access.ts';
 import { decisionInput } from '../../../../lib/review/schemas.ts';
 
 async function record({ locals, params, request }: APIContext) {

@@ -3,7 +3,7 @@ import { idParam } from '../../../../lib/server/access.ts';
 import { batchForCaller } from '../../../../lib/server/batches.ts';
 import { apiRoute, json, parseInput, readJson } from '../../../../lib/server/http.ts';
 import { moveItem } from '../../../../lib/server/removal.ts';
-import { itemForRole } from '../../../../lib/server/review.ts';
+import { itemForRole } from '../../../../lib/server/review/access.ts';
 
 const moveInput = z.object({ batchId: z.string().uuid('Choose the batch to move the print to.') }).strict();
 

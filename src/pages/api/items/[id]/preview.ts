@@ -4,7 +4,7 @@ import { InvalidInput } from '../../../../lib/server/errors.ts';
 import { disposition, fileResponse, withExtension } from '../../../../lib/server/files.ts';
 import { apiRoute } from '../../../../lib/server/http.ts';
 import { derivedKeys } from '../../../../lib/server/processing.ts';
-import { cropImage } from '../../../../lib/server/review.ts';
+import { cropImage } from '../../../../lib/server/review/crops.ts';
 import { cropQuery } from '../../../../lib/review/schemas.ts';
 import { reviewCopySide } from '../../../../lib/restoration/imaging.ts';
 import { Original } from '../../../../../db/index.ts';

@@ -2,7 +2,7 @@ import { z } from 'zod';
 import { idParam } from '../../../../lib/server/access.ts';
 import { apiRoute, json, parseInput, readJson } from '../../../../lib/server/http.ts';
 import { itemRemovalSummary, removeItem } from '../../../../lib/server/removal.ts';
-import { itemForRole } from '../../../../lib/server/review.ts';
+import { itemForRole } from '../../../../lib/server/review/access.ts';
 
 /** What removing the print would take with it (decision, captions, hand-made corrections), for the confirmation. */
 export const GET = apiRoute(async ({ locals, params }) => {

@@ -2,7 +2,7 @@ import { idParam } from '../../../../../lib/server/access.ts';
 import { AppError } from '../../../../../lib/server/errors.ts';
 import { apiRoute, json, parseInput, readJson } from '../../../../../lib/server/http.ts';
 import { batchForCaller } from '../../../../../lib/server/batches.ts';
-import { undoBulkDecision } from '../../../../../lib/server/review.ts';
+import { undoBulkDecision } from '../../../../../lib/server/review/decisions.ts';
 import { undoBulkInput } from '../../../../../lib/review/schemas.ts';
 
 /**

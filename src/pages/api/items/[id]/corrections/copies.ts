@@ -2,7 +2,7 @@ import { idParam } from '../../../../../lib/server/access.ts';
 import { apiRoute, json, parseInput, readJson } from '../../../../../lib/server/http.ts';
 import { copyCorrection } from '../../../../../lib/server/correction-copies.ts';
 import { correctionCopyInput } from '../../../../../lib/review/correction-copies.ts';
-import { itemForRole } from '../../../../../lib/server/review.ts';
+import { itemForRole } from '../../../../../lib/server/review/access.ts';
 
 /** Uses this print's saved correction on chosen prints of its batch, each as a new version; renders are queued: 202. */
 export const POST = apiRoute(async ({ locals, params, request }) => {

@@ -1,7 +1,7 @@
 import { idParam } from '../../../../../../lib/server/access.ts';
 import { NotFound } from '../../../../../../lib/server/errors.ts';
 import { apiRoute, json } from '../../../../../../lib/server/http.ts';
-import { restoreVersion } from '../../../../../../lib/server/review.ts';
+import { restoreVersion } from '../../../../../../lib/server/review/versions.ts';
 
 /** Makes an earlier version current again, recorded as a new 'restored' version; its render is queued: 202. */
 export const POST = apiRoute(async ({ locals, params }) => {
