@@ -28,6 +28,7 @@ const LOMIRI16 = 'usr/share/backgrounds/';
 const PLASMA = (name: string, size = '2560x1600.jpg') => `usr/share/wallpapers/${name}/contents/images/${size}`;
 const SKIMAGE = 'usr/lib/python3/dist-packages/skimage/data/';
 const SKLEARN = 'usr/lib/python3/dist-packages/sklearn/datasets/images/';
+const MATE = 'usr/share/backgrounds/mate/nature/';
 
 /** Every photograph the lab uses, with its category and part; licences as each package's copyright file or metadata states them. */
 export const PHOTOS: PhotoSource[] = [
@@ -75,6 +76,23 @@ export const PHOTOS: PhotoSource[] = [
   { id: 'coins', pkg: 'python3-skimage', path: SKIMAGE + 'coins.png', category: 'monochrome', part: 'dev', licence: 'public domain, per skimage/data/_fetchers.py' },
   { id: 'facade', pkg: 'plasma-workspace-wallpapers', path: PLASMA('Grey'), category: 'monochrome', part: 'validation', licence: 'LGPLv3, per its metadata.json' },
   { id: 'grey-pier', pkg: 'plasma-workspace-wallpapers', path: PLASMA('ColdRipple'), category: 'monochrome', part: 'dev', licence: 'LGPLv3, per its metadata.json' },
+  // more development photographs, added after the first 35 so that every earlier case keeps its seed
+  // (cases are seeded by a photograph's place in this list); the validation part is unchanged
+  { id: 'water-drop', pkg: 'mate-backgrounds', path: MATE + 'Aqua.jpg', category: 'no-neutral', part: 'dev', licence: 'GPL-2+, Charles Barbin, per its copyright file' },
+  { id: 'leaf-veins', pkg: 'mate-backgrounds', path: MATE + 'Blinds.jpg', category: 'foliage', part: 'dev', licence: 'GPL-2+, Lennart Poettering and Andrea Cimitan, per its copyright file' },
+  { id: 'dune-grass', pkg: 'mate-backgrounds', path: MATE + 'Dune.jpg', category: 'outdoor', part: 'dev', licence: 'GPL-2+, Marco Cogoni and Hylke Bons, per its copyright file' },
+  { id: 'orange-petals', pkg: 'mate-backgrounds', path: MATE + 'FreshFlower.jpg', category: 'single-colour', part: 'dev', licence: 'GPL-2+, Jens Ansorg, per its copyright file' },
+  { id: 'marigold', pkg: 'mate-backgrounds', path: MATE + 'Garden.jpg', category: 'foliage', part: 'dev', licence: 'GPL-2+, Charles Barbin, per its copyright file' },
+  { id: 'meadow', pkg: 'mate-backgrounds', path: MATE + 'GreenMeadow.jpg', category: 'single-colour', part: 'dev', licence: 'GPL-2+, Timothy Schellhase and Lapo Calamandrei, per its copyright file' },
+  { id: 'ladybird', pkg: 'mate-backgrounds', path: MATE + 'LadyBird.jpg', category: 'foliage', part: 'dev', licence: 'GPL-2+, Charles Barbin, per its copyright file' },
+  { id: 'rain-drops', pkg: 'mate-backgrounds', path: MATE + 'RainDrops.jpg', category: 'foliage', part: 'dev', licence: 'GPL-2+, "blackcombwhistler07", per its copyright file' },
+  { id: 'storm', pkg: 'mate-backgrounds', path: MATE + 'Storm.jpg', category: 'outdoor', part: 'dev', licence: 'GPL-2+, Sergey Nazarov, per its copyright file' },
+  { id: 'seed-heads', pkg: 'mate-backgrounds', path: MATE + 'TwoWings.jpg', category: 'foliage', part: 'dev', licence: 'GPL-2+, Charles Barbin and Hylke Bons, per its copyright file' },
+  { id: 'planks', pkg: 'mate-backgrounds', path: MATE + 'Wood.jpg', category: 'indoor', part: 'dev', licence: 'GPL-2+, Jean-François Fortin Tam, per its copyright file' },
+  { id: 'yellow-flower', pkg: 'mate-backgrounds', path: MATE + 'YellowFlower.jpg', category: 'single-colour', part: 'dev', licence: 'GPL-2+, Charles Barbin, per its copyright file' },
+  { id: 'portrait', pkg: 'python-matplotlib-data', path: 'usr/share/matplotlib/mpl-data/sample_data/grace_hopper.jpg', category: 'people-pets', part: 'dev', licence: 'matplotlib sample data under its package licence (copyright file); a U.S. Navy photograph in the public domain (from memory)' },
+  { id: 'clock', pkg: 'lomiri-wallpapers-16.04', path: LOMIRI16 + 'greentock_by_Peter_Nerlich.jpg', category: 'indoor', part: 'dev', licence: 'CC-BY-SA-4.0, Peter Nerlich' },
+  { id: 'sea-stars', pkg: 'lomiri-wallpapers-20.04', path: LOMIRI16 + 'Infinite-Sea_by_Aury88.jpg', category: 'night', part: 'dev', licence: 'CC-BY-SA-3.0, Aury88' },
 ];
 
 /** Where packages, unpacked files and decoded copies are kept between runs (outside the repository). */

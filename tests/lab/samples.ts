@@ -13,15 +13,14 @@
  * aged print's densities (the best the engine's correction can undo), and whether it aged at all.
  */
 import { spawn } from 'node:child_process';
-import { createHash } from 'node:crypto';
-import { existsSync, mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, readFileSync, renameSync, writeFileSync } from 'node:fs';
 import { cpus } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import sharp from 'sharp';
 import { printFeatures, type PrintFeatures } from '../../src/lib/restoration/analysis';
 import { labOf8 } from './metrics';
-import { labCache, loadPhoto, photosOf, type Photo } from './photos';
+import { labCache, loadPhoto, photosOf, type Photo, type PhotoSource } from './photos';
 import { agePhoto, decode, drawAgeing, encode, rng, type Ageing, type AgeingMode } from './simulator';
 
 /** Long side of the photographs the training prints are made from. */
@@ -186,9 +185,9 @@ const fromStored = (s: Stored): Sample => ({ ...s, freshLab: Float64Array.from(s
 const HERE = fileURLToPath(import.meta.url);
 
 /** Runs this file as a child process that makes the samples of the given photographs. */
-function shard(photos: number[], o: SampleOptions, file: string): Promise<void> {
+function shard(photos: number[], o: SampleOptions): Promise<void> {
   return new Promise((resolve, reject) => {
-    const child = spawn(process.execPath, ['--import', 'tsx', HERE, JSON.stringify({ photos, o, file })], { stdio: ['ignore', 'inherit', 'inherit'] });
+    const child = spawn(process.execPath, ['--import', 'tsx', HERE, JSON.stringify({ photos, o })], { stdio: ['ignore', 'inherit', 'inherit'] });
     child.on('error', reject);
     child.on('exit', (code) => (code === 0 ? resolve() : reject(new Error(`sample shard exited with ${code}`))));
   });
@@ -200,7 +199,8 @@ const CHUNK = 150;
 /**
  * Every sample of the development photographs for these options, from the cache or made now. A set
  * of N per photograph is its chunks of CHUNK, seeded seed, seed + 1e6, …, so a larger set reuses a
- * smaller one's samples.
+ * smaller one's samples. Each photograph's chunk is cached on its own, so adding a photograph to the
+ * development part makes only its samples.
  */
 export async function trainingSamples(o: SampleOptions, log: (line: string) => void = () => {}): Promise<Sample[]> {
   const out: Sample[] = [];
@@ -210,33 +210,36 @@ export async function trainingSamples(o: SampleOptions, log: (line: string) => v
   return out;
 }
 
-async function chunkSamples(o: SampleOptions, log: (line: string) => void): Promise<Sample[]> {
-  const dev = photosOf('dev');
+/** The cache file of one development photograph's chunk. */
+function chunkFile(photo: PhotoSource, o: SampleOptions): string {
   const dir = join(labCache(), 'samples');
   mkdirSync(dir, { recursive: true });
-  const key = `r${SAMPLE_RECIPE}-n${o.perPhoto}-${o.vary ? 'varied' : 'plain'}-s${o.seed}-${createHash('sha256').update(dev.map((p) => p.id).join(',')).digest('hex').slice(0, 8)}`;
-  const file = join(dir, `${key}.json`);
-  if (existsSync(file)) {
-    log(`  samples from the cache: ${file}`);
-    return (JSON.parse(readFileSync(file, 'utf8')) as Stored[]).map(fromStored);
+  return join(dir, `r${SAMPLE_RECIPE}-${photo.id}-n${o.perPhoto}-${o.vary ? 'varied' : 'plain'}-s${o.seed}.json`);
+}
+
+async function chunkSamples(o: SampleOptions, log: (line: string) => void): Promise<Sample[]> {
+  const dev = photosOf('dev');
+  const missing = dev.map((_, p) => p).filter((p) => !existsSync(chunkFile(dev[p], o)));
+  if (missing.length) {
+    const workers = Math.max(1, Math.min(cpus().length, missing.length));
+    const parts = Array.from({ length: workers }, (_, w) => missing.filter((_, i) => i % workers === w));
+    const started = Date.now();
+    await Promise.all(parts.map((photos) => shard(photos, o)));
+    log(`  samples of ${missing.length} photographs made in ${((Date.now() - started) / 1000).toFixed(0)} s over ${workers} processes`);
+  } else {
+    log(`  samples of seed ${o.seed} from the cache`);
   }
-  const workers = Math.max(1, Math.min(cpus().length, dev.length));
-  const parts = Array.from({ length: workers }, (_, w) => dev.map((_, p) => p).filter((p) => p % workers === w));
-  const started = Date.now();
-  await Promise.all(parts.map((photos, w) => shard(photos, o, `${file}.${w}`)));
-  const all = parts.flatMap((_, w) => JSON.parse(readFileSync(`${file}.${w}`, 'utf8')) as Stored[]).sort((a, b) => a.photo - b.photo);
-  writeFileSync(file, JSON.stringify(all));
-  parts.forEach((_, w) => rmSync(`${file}.${w}`));
-  log(`  ${all.length} samples made in ${((Date.now() - started) / 1000).toFixed(0)} s over ${workers} processes`);
-  return all.map(fromStored);
+  // the photograph's index is its place in today's list (the cached index may be of an older list)
+  return dev.flatMap((photo, p) => (JSON.parse(readFileSync(chunkFile(photo, o), 'utf8')) as Stored[]).map((s) => fromStored({ ...s, photo: p })));
 }
 
 if (process.argv[1] === HERE && process.argv[2]) {
-  const { photos, o, file } = JSON.parse(process.argv[2]) as { photos: number[]; o: SampleOptions; file: string };
-  const out: Stored[] = [];
+  const { photos, o } = JSON.parse(process.argv[2]) as { photos: number[]; o: SampleOptions };
   for (const p of photos) {
-    out.push(...(await samplesOfPhoto(p, o)).map(toStored));
-    process.stderr.write(`  ${photosOf('dev')[p].id}: ${o.perPhoto} samples\n`);
+    const photo = photosOf('dev')[p];
+    const file = chunkFile(photo, o);
+    writeFileSync(`${file}.part`, JSON.stringify((await samplesOfPhoto(p, o)).map(toStored)));
+    renameSync(`${file}.part`, file);
+    process.stderr.write(`  ${photo.id}: ${o.perPhoto} samples\n`);
   }
-  writeFileSync(file, JSON.stringify(out));
 }
