@@ -1,10 +1,10 @@
 /**
- * A few engine threads for the worker: `analyseForReview` and `renderCorrected` of the engine,
- * each call on a thread of its own (at most one scan per thread), the results handed back.
+ * A few engine threads for the worker (piscina): `analyseForReview` and `renderCorrected` of the
+ * engine, each call on a thread of its own (at most one scan per thread), the results handed back.
  * On the worker's main thread the per-pixel JavaScript of two scans ran one after the other and
  * held up the queue and database work; on threads both cores run it (tests/bench/ingest.ts).
  */
-import { Worker } from 'node:worker_threads';
+import Piscina from 'piscina';
 import type { AnalyseAndRenderOptions, AnalyseAndRenderResult, RenderOptions, RenderResult, ReviewCopiesOptions, ReviewCopiesResult, ScanLimits } from '../src/lib/restoration/imaging.ts';
 import { ScanRejected } from '../src/lib/restoration/errors.ts';
 import type { ScanRejectedCode } from '../src/lib/restoration/errors.ts';
@@ -15,13 +15,16 @@ import { config } from '../src/lib/server/config.ts';
 type ThreadAnalyseAndRenderOptions = Omit<AnalyseAndRenderOptions, 'decodeSlot'>;
 
 export type EngineRequest =
-  | { id: number; kind: 'analyseAndRender'; path: string; options: ThreadAnalyseAndRenderOptions }
-  | { id: number; kind: 'analyseForReview'; path: string; options: ReviewCopiesOptions }
-  | { id: number; kind: 'renderCorrected'; path: string; correction: Correction; options: RenderOptions; limits?: Partial<ScanLimits> };
-type Job = EngineRequest extends infer R ? (R extends { id: number } ? Omit<R, 'id'> : never) : never;
+  | { kind: 'analyseAndRender'; path: string; options: ThreadAnalyseAndRenderOptions }
+  | { kind: 'analyseForReview'; path: string; options: ReviewCopiesOptions }
+  | { kind: 'renderCorrected'; path: string; correction: Correction; options: RenderOptions; limits?: Partial<ScanLimits> };
 
 type EngineResult = RenderResult | ReviewCopiesResult;
-export type EngineReply = { id: number; ok: true; result: EngineResult } | { id: number; ok: false; rejected?: ScanRejectedCode; message: string };
+/**
+ * A refused scan comes back as an answer, not as a thrown error: structured cloning keeps an
+ * error's message but not its code, which the jobs need.
+ */
+export type EngineReply = { ok: true; result: EngineResult } | { ok: false; rejected?: ScanRejectedCode; message: string };
 
 /** Structured cloning hands Buffers over as plain Uint8Arrays: make them Buffers again, without copying. */
 function asBuffer(b: Uint8Array | undefined): Buffer | undefined {
@@ -41,20 +44,24 @@ function revive<T extends EngineResult>(r: T): T {
   return r;
 }
 
-interface Lane {
-  thread: Worker;
-  busy?: { id: number; resolve: (r: EngineResult) => void; reject: (e: Error) => void };
-}
-
 const THREAD_URL = new URL('./engine-thread.mjs', import.meta.url);
 
 /** At most `size` scans at a time, one per thread; further calls wait their turn in order. */
 export class EnginePool {
-  private lanes: Lane[] = [];
-  private waiting: { job: Job; resolve: (r: EngineResult) => void; reject: (e: Error) => void }[] = [];
-  private nextId = 1;
+  private readonly pool: Piscina<EngineRequest, EngineReply>;
 
-  constructor(private readonly size: number) {}
+  constructor(size: number) {
+    this.pool = new Piscina({
+      filename: THREAD_URL.href,
+      // threads start with the first scan and stay: each one's start loads the engine's code anew
+      minThreads: 0,
+      maxThreads: size,
+      idleTimeout: Infinity,
+      concurrentTasksPerWorker: 1,
+      // plain messages between tasks: a thread parked on Atomics.wait could not finish libvips' callbacks
+      atomics: 'disabled',
+    });
+  }
 
   analyseAndRender(path: string, options: ThreadAnalyseAndRenderOptions): Promise<AnalyseAndRenderResult> {
     return this.submit({ kind: 'analyseAndRender', path, options }) as Promise<AnalyseAndRenderResult>;
@@ -69,48 +76,16 @@ export class EnginePool {
     return this.submit({ kind: 'renderCorrected', path, correction, options, limits }) as Promise<RenderResult>;
   }
 
-  private submit(job: Job): Promise<EngineResult> {
-    return new Promise((resolve, reject) => {
-      this.waiting.push({ job, resolve, reject });
-      this.pump();
-    });
+  /** Stops the threads; scans still waiting are refused. */
+  close(): Promise<void> {
+    return this.pool.destroy();
   }
 
-  private spawn(): Lane {
-    const lane: Lane = { thread: new Worker(THREAD_URL) };
-    lane.thread.unref();
-    lane.thread.on('message', (reply: EngineReply) => {
-      const busy = lane.busy;
-      lane.busy = undefined;
-      if (busy) {
-        if (reply.ok) busy.resolve(revive(reply.result));
-        else busy.reject(reply.rejected ? new ScanRejected(reply.rejected, reply.message) : new Error(reply.message));
-      }
-      this.pump();
-    });
-    const lost = (err: Error) => {
-      // a thread that died takes only its own scan with it; a new thread replaces it
-      this.lanes = this.lanes.filter((l) => l !== lane);
-      lane.busy?.reject(err);
-      lane.busy = undefined;
-      this.pump();
-    };
-    lane.thread.on('error', lost);
-    lane.thread.on('exit', (code) => lost(new Error(`engine thread stopped (exit code ${code})`)));
-    this.lanes.push(lane);
-    return lane;
-  }
-
-  private pump(): void {
-    while (this.waiting.length > 0) {
-      let lane = this.lanes.find((l) => !l.busy);
-      if (!lane && this.lanes.length < this.size) lane = this.spawn();
-      if (!lane) return;
-      const { job, resolve, reject } = this.waiting.shift()!;
-      const id = this.nextId++;
-      lane.busy = { id, resolve, reject };
-      lane.thread.postMessage({ ...job, id });
-    }
+  private async submit(job: EngineRequest): Promise<EngineResult> {
+    // a thread that died takes only its own scan with it (piscina rejects it and starts another)
+    const reply = await this.pool.run(job);
+    if (reply.ok) return revive(reply.result);
+    throw reply.rejected ? new ScanRejected(reply.rejected, reply.message) : new Error(reply.message);
   }
 }
 

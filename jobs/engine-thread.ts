@@ -1,18 +1,16 @@
 /**
- * One engine thread of the worker (jobs/engine-pool.ts): decodes, measures and renders one scan
- * at a time off the worker's main thread, so the per-pixel JavaScript of two scans (tables,
- * analysis) and their garbage collection run side by side on both cores, and the main thread
- * is left to the queue, the files and the database.
+ * One engine thread of the worker (jobs/engine-pool.ts, a piscina pool): decodes, measures and
+ * renders one scan at a time off the worker's main thread, so the per-pixel JavaScript of two
+ * scans (tables, analysis) and their garbage collection run side by side on both cores, and the
+ * main thread is left to the queue, the files and the database.
  */
-import { parentPort } from 'node:worker_threads';
-import sharp from 'sharp';
-import { analyseAndRender, analyseForReview, renderCorrected, ScanRejected } from '../src/lib/restoration/imaging.ts';
+import { analyseAndRender, analyseForReview, imagingForLongRuns, renderCorrected, ScanRejected } from '../src/lib/restoration/imaging.ts';
 import type { EngineReply, EngineRequest } from './engine-pool.ts';
 
-sharp.cache(false);
+imagingForLongRuns();
 
-parentPort!.on('message', async (req: EngineRequest) => {
-  let reply: EngineReply;
+/** Runs one scan's engine call; a refusal is an answer (see EngineReply). */
+export default async function engineTask(req: EngineRequest): Promise<EngineReply> {
   try {
     const result =
       req.kind === 'analyseAndRender'
@@ -20,10 +18,8 @@ parentPort!.on('message', async (req: EngineRequest) => {
         : req.kind === 'analyseForReview'
           ? await analyseForReview(req.path, req.options)
           : await renderCorrected(req.path, req.correction, req.options, req.limits);
-    reply = { id: req.id, ok: true, result };
+    return { ok: true, result };
   } catch (err) {
-    const e = err as Error;
-    reply = { id: req.id, ok: false, rejected: err instanceof ScanRejected ? err.code : undefined, message: String(e?.message ?? err) };
+    return { ok: false, rejected: err instanceof ScanRejected ? err.code : undefined, message: String((err as Error)?.message ?? err) };
   }
-  parentPort!.postMessage(reply);
-});
+}

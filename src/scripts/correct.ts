@@ -11,8 +11,7 @@ import { mkdir, readdir, stat, writeFile } from 'node:fs/promises';
 import { availableParallelism } from 'node:os';
 import { basename, extname, join, resolve } from 'node:path';
 import pLimit from 'p-limit';
-import sharp from 'sharp';
-import { analyseAndRender, loadReduced, readScanSync, ScanRejected } from '../lib/restoration/imaging';
+import { analyseAndRender, imagingForLongRuns, loadReduced, readScanSync, ScanRejected } from '../lib/restoration/imaging';
 import { analysePixels, poolAnalyses, type Analysis } from '../lib/restoration/analysis';
 import type { Correction } from '../lib/restoration/correction';
 
@@ -165,8 +164,7 @@ async function main(): Promise<number> {
     return 2;
   }
   // long batch runs: no libvips operation cache; one libvips thread per scan, AT_A_TIME scans at a time
-  sharp.cache(false);
-  sharp.concurrency(1);
+  imagingForLongRuns(1);
 
   const failures: Failure[] = [];
   const files = await collect(opts.inputs, failures, opts.out);

@@ -1,7 +1,7 @@
 /**
  * Synthetic print scenes for the demo, tests and benchmarks: invented content (sky, foliage, a
  * skin-toned face, saturated patches, a grey step wedge, optionally a white border), aged with
- * a density model D' = k·D + s and encoded by sharp as JPEG, PNG or TIFF at any size.
+ * a density model D' = k·D + s and encoded as JPEG, PNG or TIFF at any size by the image module.
  * Everything is deterministic for a given seed.
  *
  * @example
@@ -9,7 +9,9 @@
  *   const faded = agePixels(fresh, AGEING_MODELS.darkStorage(1));
  *   const jpeg = await encodeScene(faded, { format: 'jpeg', quality: 92 });
  */
-import sharp from 'sharp';
+import { encodePixels, type EncodeOptions } from '../restoration/imaging.ts';
+
+export type { EncodeOptions } from '../restoration/imaging.ts';
 
 type Triplet = [number, number, number];
 
@@ -234,27 +236,9 @@ export function agePixels(scene: ScenePixels, ageing: Ageing): ScenePixels {
   return { ...scene, data: out };
 }
 
-export interface EncodeOptions {
-  format: 'jpeg' | 'png' | 'tiff';
-  /** JPEG quality, default 92. */
-  quality?: number;
-  /** 16 bits per channel (PNG and TIFF only). */
-  sixteenBit?: boolean;
-  progressive?: boolean;
-  /** Write a one-channel greyscale file (for a monochrome scene, as a black-and-white scanner mode would). */
-  greyscale?: boolean;
-}
-
-/** Encodes scene pixels with sharp. */
-export async function encodeScene(pixels: ScenePixels, options: EncodeOptions): Promise<Buffer> {
-  let img = sharp(Buffer.from(pixels.data.buffer, pixels.data.byteOffset, pixels.data.byteLength), {
-    raw: { width: pixels.width, height: pixels.height, channels: 3 },
-  });
-  if (options.greyscale) img = img.toColourspace(options.sixteenBit && options.format !== 'jpeg' ? 'grey16' : 'b-w');
-  else if (options.sixteenBit && options.format !== 'jpeg') img = img.toColourspace('rgb16');
-  if (options.format === 'jpeg') return img.jpeg({ quality: options.quality ?? 92, progressive: options.progressive ?? false }).toBuffer();
-  if (options.format === 'png') return img.png({ compressionLevel: 3 }).toBuffer();
-  return img.tiff({ compression: 'lzw' }).toBuffer();
+/** Encodes scene pixels as a scan file. */
+export function encodeScene(pixels: ScenePixels, options: EncodeOptions): Promise<Buffer> {
+  return encodePixels(pixels, options);
 }
 
 /** One call for a whole synthetic scan: scene, optional ageing, encoding. */

@@ -1,50 +1,27 @@
 /**
- * The engine's only contact with image files (sharp / libvips). Everything else under
- * src/lib/restoration is pure and runs in the browser too.
+ * The image module: the only file that imports sharp (libvips). It probes scans, decodes them,
+ * makes the review copies, renders corrections (with an export's metadata when asked), crops
+ * for the review's 1:1 view and writes the demo's scan files, for the job worker's engine threads,
+ * the web server (an upload's probe, the crops), the export and the command line alike.
+ * Everything else under src/lib/restoration is pure and runs in the browser too; the sizes and
+ * limits others need without decoding anything are in scan-sizes.ts.
  *
  * One full decode per scan: {@link analyseAndRender} decodes the oriented sRGB pixels once and
  * derives the analysis copy, the render and the previews from that single buffer.
  */
 import { readFileSync } from 'node:fs';
 import { readFile, stat, open } from 'node:fs/promises';
+import { createRequire } from 'node:module';
+import type ExifReaderModule from 'exifreader';
 import sharp from 'sharp';
 import { analysePixels, samplePixels, type Analysis, type ReducedPixels } from './analysis';
 import { applyCorrection, applyGeometry, buildChannelLuts, correctionSchema, geometryPlan, hasGeometry, isIdentity, type Correction } from './correction';
 import { ScanRejected } from './errors';
+import { ANALYSIS_SIDE, DEFAULT_LIMITS, reviewCopySide, type ScanFormat } from './scan-sizes';
 
 export { ScanRejected } from './errors';
 
-/** Default refusal limits: 150 megapixels covers an 8x10 in print at 1200 dpi; 500 MB any sane file. */
-export const DEFAULT_LIMITS = { maxPixels: 150_000_000, maxBytes: 500 * 1024 * 1024 };
-
-export type ScanFormat = 'jpeg' | 'png' | 'tiff';
-
-/** Longest side of the reduced copy the analysis measures and the previews show. */
-export const ANALYSIS_SIDE = 1280;
-/** Shortest long side of that copy where a JPEG's shrink-on-load leaves a choice (see {@link reviewCopySide}). */
-export const ANALYSIS_MIN_SIDE = 900;
-
-/**
- * Long side of the reduced copy of a scan that the analysis measures and the previews show.
- * A JPEG decodes at 1/4 or 1/8 of its size for a fraction of a full decode (libjpeg's scaled DCT;
- * measured here on 3600 x 2400 scans: 23 ms at 1/4 against 32 ms whole; at 1/2 it was no cheaper,
- * 42 ms, its scaled transform having no SIMD code; tests/bench/engine.ts prints the costs). For a
- * JPEG it is the smallest of the 1/8, 1/4 and 1/2 sizes that keeps ANALYSIS_MIN_SIDE, reduced
- * further to ANALYSIS_SIDE when larger: 900 px for a 6x4 in print
- * at 600 dpi (3600 px, 1/4) or 1200 dpi (7200 px, 1/8), 1200 px at 400 dpi (2400 px, 1/2), 1250 px
- * for a 5000 px scan (1/4). Other formats decode whole anyway: ANALYSIS_SIDE.
- * Never larger than the scan.
- */
-export function reviewCopySide(longSide: number, format: ScanFormat): number {
-  if (longSide <= ANALYSIS_MIN_SIDE) return longSide;
-  if (format === 'jpeg') {
-    for (const shrink of [8, 4, 2]) {
-      const side = Math.ceil(longSide / shrink);
-      if (side >= ANALYSIS_MIN_SIDE) return Math.min(side, ANALYSIS_SIDE);
-    }
-  }
-  return Math.min(longSide, ANALYSIS_SIDE);
-}
+export { ANALYSIS_MIN_SIDE, ANALYSIS_SIDE, DEFAULT_LIMITS, reviewCopySide, type ScanFormat } from './scan-sizes';
 
 /** What the header of a scan says, read without decoding the pixels. */
 export interface ScanProbe {
@@ -288,53 +265,48 @@ export async function analyseScan(input: string | Buffer, limits?: Partial<ScanL
   return analysePixels(await loadReduced(input, ANALYSIS_SIDE, limits));
 }
 
-/** EXIF tags worth carrying from a scan to its render: dates, device, author (EXIF 2.32 tag numbers). */
-const EXIF_KEEP: Record<'IFD0' | 'IFD2', Record<number, string>> = {
-  IFD0: { 0x010e: 'ImageDescription', 0x010f: 'Make', 0x0110: 'Model', 0x0132: 'DateTime', 0x013b: 'Artist', 0x8298: 'Copyright' },
-  IFD2: { 0x9003: 'DateTimeOriginal', 0x9004: 'DateTimeDigitized', 0x9011: 'OffsetTimeOriginal' },
-};
-const EXIF_IFD_POINTER = 0x8769;
+/** EXIF tags worth carrying from a scan to its render: dates, device, author (EXIF 2.32), by the IFD sharp writes them to. */
+const EXIF_KEEP = {
+  IFD0: ['ImageDescription', 'Make', 'Model', 'DateTime', 'Artist', 'Copyright'],
+  IFD2: ['DateTimeOriginal', 'DateTimeDigitized', 'OffsetTimeOriginal'],
+} as const;
+
+let exifReader: typeof ExifReaderModule | undefined;
+/**
+ * exifreader, loaded when the first scan with EXIF comes: its load takes about 45 ms here, a
+ * fifth of a scan's render, which a command-line run over scans without EXIF need not pay.
+ */
+function exifReaderModule(): typeof ExifReaderModule {
+  exifReader ??= createRequire(import.meta.url)('exifreader') as typeof ExifReaderModule;
+  return exifReader;
+}
 
 /**
  * Reads the carried-over EXIF text tags from a raw EXIF block (as libvips hands it over, with or
- * without the "Exif\0\0" prefix). Orientation is deliberately not among them: the render's pixels
- * are already turned. Malformed blocks yield what could be read.
+ * without the "Exif\0\0" prefix) with exifreader. Orientation is deliberately not among them: the
+ * render's pixels are already turned. A malformed block yields what could be read, or nothing.
  */
 export function meaningfulExif(exif: Buffer | undefined): sharp.Exif {
   const out: sharp.Exif = {};
   if (!exif || exif.length < 8) return out;
-  const base = exif.toString('latin1', 0, 6) === 'Exif\0\0' ? 6 : 0;
-  const order = exif.toString('latin1', base, base + 2);
-  if (order !== 'II' && order !== 'MM') return out;
-  const le = order === 'II';
-  const u16 = (o: number) => (o + 2 <= exif.length ? (le ? exif.readUInt16LE(o) : exif.readUInt16BE(o)) : -1);
-  const u32 = (o: number) => (o + 4 <= exif.length ? (le ? exif.readUInt32LE(o) : exif.readUInt32BE(o)) : -1);
-  const readIfd = (offset: number, wanted: Record<number, string>, into: 'IFD0' | 'IFD2'): number | null => {
-    const at = base + offset;
-    const n = u16(at);
-    if (n < 0 || n > 512) return null;
-    let exifPointer: number | null = null;
-    for (let k = 0; k < n; k++) {
-      const e = at + 2 + k * 12;
-      const tag = u16(e);
-      const type = u16(e + 2);
-      const count = u32(e + 4);
-      if (tag < 0 || count < 0) break;
-      if (tag === EXIF_IFD_POINTER) exifPointer = u32(e + 8);
-      const name = wanted[tag];
-      if (!name || type !== 2 || count === 0 || count > 4096) continue;
-      const start = count <= 4 ? e + 8 : base + u32(e + 8);
-      if (start < 0 || start + count > exif.length) continue;
+  // the block is a TIFF structure after its prefix; exifreader takes it as a TIFF file
+  const tiff = exif.toString('latin1', 0, 6) === 'Exif\0\0' ? exif.subarray(6) : exif;
+  let tags: ExifReaderModule.Tags;
+  try {
+    tags = exifReaderModule().load(tiff);
+  } catch {
+    return out;
+  }
+  for (const ifd of ['IFD0', 'IFD2'] as const) {
+    for (const name of EXIF_KEEP[ifd]) {
+      const value = (tags[name] as { value?: unknown } | undefined)?.value;
+      // ASCII tags come as one string in an array; anything else under that name is not carried
+      const raw = Array.isArray(value) && typeof value[0] === 'string' ? value[0] : undefined;
+      const text = raw?.replace(/\0+$/, '').trim();
       // libvips flattens non-ASCII and trims some punctuation: carry plain ASCII only (seen with sharp 0.34 here)
-      const text = exif.toString('latin1', start, start + count).replace(/\0+$/, '').trim();
-      if (text && /^[\x20-\x7e]+$/.test(text)) (out[into] ??= {})[name] = text;
+      if (text && /^[\x20-\x7e]+$/.test(text)) (out[ifd] ??= {})[name] = text;
     }
-    return exifPointer;
-  };
-  const ifd0 = u32(base + 4);
-  if (ifd0 < 8) return out;
-  const pointer = readIfd(ifd0, EXIF_KEEP.IFD0, 'IFD0');
-  if (pointer && pointer >= 8) readIfd(pointer, EXIF_KEEP.IFD2, 'IFD2');
+  }
   return out;
 }
 
@@ -354,6 +326,11 @@ export interface RenderOptions {
    * `originalThumbnailOnly` makes only the thumbnail of the original (its preview is made on demand).
    */
   previews?: { thumbnail?: number; preview?: number; correctedOnly?: boolean; originalThumbnailOnly?: boolean };
+  /**
+   * Metadata written by the same encode, so an exported JPEG is one generation from the scan:
+   * `exif` in place of the tags carried over from the scan, `xmp` a whole XMP packet.
+   */
+  metadata?: { exif?: sharp.Exif; xmp?: string };
 }
 
 export interface PreviewSet {
@@ -386,8 +363,12 @@ function srgbIcc(): Promise<Buffer> {
 }
 
 /**
- * Adds an ICC APP2 segment to a JPEG whose pixels are already sRGB. Asking libvips to attach the
- * profile instead runs a colour transform over every pixel, from sRGB to the same sRGB.
+ * Adds an ICC APP2 segment to a JPEG whose pixels are already sRGB. sharp's own options for this
+ * (withIccProfile, withMetadata, which also brings the profile) run a colour transform over every
+ * pixel, from sRGB to the same sRGB, for identical pixels: measured here on a 3600 x 2400 render
+ * (sharp 0.34.5, one libvips thread, three passes on a loaded machine), the encode alone took
+ * 65-107 ms, with withIccProfile('srgb') 205-389 ms, with withMetadata({ density }) 261-448 ms.
+ * The segment is written here instead, which costs a copy of the JPEG.
  */
 function embedIcc(jpeg: Buffer, icc: Buffer): Buffer {
   const head = Buffer.from('ICC_PROFILE\0', 'latin1');
@@ -409,8 +390,8 @@ function embedIcc(jpeg: Buffer, icc: Buffer): Buffer {
 /**
  * Records the scan's resolution in the JPEG: a JFIF APP0 segment in front, and the EXIF IFD0
  * resolution tags rewritten when libvips wrote them. libvips takes resolution from the image,
- * and pixels handed over raw have none; asking it to set one brings the needless colour
- * transform of withMetadata() along.
+ * and pixels handed over raw have none; asking it to set one (withMetadata({ density })) brings
+ * the needless colour transform measured at {@link embedIcc} along.
  */
 function stampResolution(jpeg: Buffer, dpi: number): Buffer {
   const d = Math.max(1, Math.min(65535, Math.round(dpi)));
@@ -541,8 +522,9 @@ async function renderFromFull(full: FullPixels, correction: Correction, options:
   // turns and crop after the colour, by the same pixel copy the browser's preview makes
   const corrected = hasGeometry(c) ? withGeometry(coloured, c) : coloured;
   let out = rawImage(corrected);
-  const exif = meaningfulExif(full.probe.exif);
+  const exif = options.metadata?.exif ?? meaningfulExif(full.probe.exif);
   if (Object.keys(exif).length > 0) out = out.withExif(exif);
+  if (options.metadata?.xmp) out = out.withXmp(options.metadata.xmp);
   const encoding = Promise.all([out.jpeg({ quality: options.quality ?? 92, optimiseCoding: options.optimiseCoding ?? false }).toBuffer(), srgbIcc()]);
   const previews = reduced ? await smallCopies(reduced, c, options.previews, luts && src.depth === 8 ? luts : undefined) : undefined;
   const [encoded, icc] = await encoding;
@@ -679,4 +661,87 @@ export async function analyseForReview(input: string | Buffer, options: ReviewCo
   const correction = analysis.proposed;
   const previews = await smallCopies(small, correction, options.previews);
   return { probe, analysis, correction, previews };
+}
+
+/**
+ * Sets libvips up for a process or thread that works through many scans (the job worker, its
+ * engine threads, an export, the command line): no operation cache (each scan is seen once, and
+ * a cache only holds its memory), and, when given, that many libvips threads per image.
+ */
+export function imagingForLongRuns(libvipsThreads?: number): void {
+  sharp.cache(false);
+  if (libvipsThreads) sharp.concurrency(libvipsThreads);
+}
+
+export interface EncodeOptions {
+  format: ScanFormat;
+  /** JPEG quality, default 92. */
+  quality?: number;
+  /** 16 bits per channel (PNG and TIFF only). */
+  sixteenBit?: boolean;
+  progressive?: boolean;
+  /** Write a one-channel greyscale file (for a monochrome scene, as a black-and-white scanner mode would). */
+  greyscale?: boolean;
+}
+
+/** Writes interleaved 8-bit RGB pixels as a JPEG, PNG or TIFF file, as a scanner would (the demo's and the tests' scans). */
+export async function encodePixels(pixels: { data: Uint8Array; width: number; height: number }, options: EncodeOptions): Promise<Buffer> {
+  let img = sharp(Buffer.from(pixels.data.buffer, pixels.data.byteOffset, pixels.data.byteLength), {
+    raw: { width: pixels.width, height: pixels.height, channels: 3 },
+  });
+  if (options.greyscale) img = img.toColourspace(options.sixteenBit && options.format !== 'jpeg' ? 'grey16' : 'b-w');
+  else if (options.sixteenBit && options.format !== 'jpeg') img = img.toColourspace('rgb16');
+  if (options.format === 'jpeg') return img.jpeg({ quality: options.quality ?? 92, progressive: options.progressive ?? false }).toBuffer();
+  if (options.format === 'png') return img.png({ compressionLevel: 3 }).toBuffer();
+  return img.tiff({ compression: 'lzw' }).toBuffer();
+}
+
+/** A rectangle of the upright scan, in its full-resolution pixels. */
+export interface ScanRegion {
+  x: number;
+  y: number;
+  w: number;
+  h: number;
+}
+
+export interface CropOptions {
+  /** Part of the upright scan; the whole scan when absent. */
+  region?: ScanRegion;
+  /** Reduce to this long side at most. */
+  max?: number;
+  /**
+   * Apply this correction's tables; for the whole scan also its turns and crop, as its render
+   * is framed (a region stays in the upright scan's pixels).
+   */
+  correction?: Correction | null;
+  /** JPEG quality, default 90. */
+  quality?: number;
+}
+
+/**
+ * A JPEG of part of a probed scan at full resolution (the review's 1:1 view), or of the whole
+ * scan reduced: of the original, or with a correction applied by the engine's tables. A region
+ * of a JPEG is decoded only down to its bottom row (libvips reads the file in order and stops
+ * there); a reduced JPEG uses the decoder's own shrink where the size allows.
+ * @throws {ScanRejected}
+ */
+export async function cropScan(input: string | Buffer, probe: ScanProbe, options: CropOptions = {}): Promise<Buffer> {
+  const r = options.region;
+  const whole = !r || (r.x === 0 && r.y === 0 && r.w === probe.width && r.h === probe.height);
+  const quality = options.quality ?? 90;
+  try {
+    let img = sharp(input, { limitInputPixels: probe.storedWidth * probe.storedHeight, failOn: 'truncated' }).rotate();
+    if (probe.hasAlpha) img = img.flatten({ background: '#ffffff' });
+    if (!whole) img = img.extract({ left: r.x, top: r.y, width: r.w, height: r.h });
+    if (options.max) img = img.resize({ width: options.max, height: options.max, fit: 'inside', withoutEnlargement: true });
+    img = img.toColourspace('srgb');
+    const c = options.correction;
+    if (!c) return await img.jpeg({ quality }).toBuffer();
+    const { data, info } = await img.removeAlpha().raw().toBuffer({ resolveWithObject: true });
+    const coloured: ReducedPixels = { data: applyCorrection(new Uint8Array(data.buffer, data.byteOffset, data.length), info.channels, buildChannelLuts(c, 8, 8)) as Uint8Array, width: info.width, height: info.height, channels: info.channels, depth: 8 };
+    const framed = whole && hasGeometry(c) ? withGeometry(coloured, c) : coloured;
+    return await rawImage(framed).jpeg({ quality }).toBuffer();
+  } catch (err) {
+    throw decodeError(err);
+  }
 }

@@ -12,6 +12,7 @@ import { ScanRejected, analyseAndRender, loadReduced, meaningfulExif, probeScan,
 import { identityCorrection } from '../../../src/lib/restoration/correction';
 import { encodeScene, generateScene } from '../../../src/lib/demo/synthetic';
 import { pngWith } from '../../support/bad-corpus.ts';
+import { exiftool, runTool } from '../../support/outside-checks.ts';
 
 const dir = mkdtempSync(join(tmpdir(), 'drawerlight-imaging-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
@@ -249,6 +250,44 @@ describe('render output', () => {
     const thumb = await sharp(r.previews!.corrected.thumbnail!).metadata();
     expect(Math.max(thumb.width!, thumb.height!)).toBe(32);
     expect(r.previews!.original.preview).toBeInstanceOf(Buffer);
+  });
+
+  it('reads the dates and orientation ExifTool wrote, in either byte order, and carries the dates', async () => {
+    // ExifTool (Debian's libimage-exiftool-perl) writes the EXIF here: another implementation than
+    // the reader under test (exifreader) and the writer that makes the render (libvips)
+    for (const order of ['Big-endian', 'Little-endian']) {
+      const file = join(dir, `exiftool-${order}.jpg`);
+      writeFileSync(file, await sharp(Buffer.from(card()), { raw: { width: CARD_W, height: CARD_H, channels: 3 } }).jpeg().toBuffer());
+      const wrote = await runTool('exiftool', ['-overwrite_original', `-ExifByteOrder=${order}`, '-IFD0:Make=Acme', '-IFD0:DateTime=2024:03:02 10:11:12', '-ExifIFD:DateTimeOriginal=1981:07:15 12:00:00', '-ExifIFD:DateTimeDigitized=2024:03:02 10:11:12', '-ExifIFD:OffsetTimeOriginal=+01:00', '-IFD0:Orientation#=6', file]);
+      expect(wrote.code, wrote.out).toBe(0);
+      const truth = await exiftool(file);
+      const probe = await probeScan(file);
+      expect(probe.orientation).toBe(truth['IFD0:Orientation']);
+      expect(probe.orientation).toBe(6);
+      expect(meaningfulExif(probe.exif)).toEqual({
+        IFD0: { Make: truth['IFD0:Make'], DateTime: truth['IFD0:DateTime'] },
+        IFD2: { DateTimeOriginal: truth['ExifIFD:DateTimeOriginal'], DateTimeDigitized: truth['ExifIFD:DateTimeDigitized'], OffsetTimeOriginal: truth['ExifIFD:OffsetTimeOriginal'] },
+      });
+      // the render is upright, so it says so, and keeps the dates
+      const r = await renderCorrected(file, identityCorrection());
+      const out = join(dir, `render-${order}.jpg`);
+      writeFileSync(out, r.buffer);
+      const rendered = await exiftool(out);
+      expect(rendered['IFD0:Orientation'] ?? 1).toBe(1);
+      expect(rendered['ExifIFD:DateTimeOriginal']).toBe('1981:07:15 12:00:00');
+    }
+  });
+
+  it('embeds the sRGB profile and the scan resolution as ExifTool reads them', async () => {
+    const src = await sharp(Buffer.from(card()), { raw: { width: CARD_W, height: CARD_H, channels: 3 } }).withMetadata({ density: 600 }).jpeg().toBuffer();
+    const r = await renderCorrected(src, identityCorrection());
+    const out = join(dir, 'render-icc.jpg');
+    writeFileSync(out, r.buffer);
+    const tags = await exiftool(out);
+    // ICC.1:2010 'desc' tag of libvips' built-in sRGB profile; JFIF 1.02 density in dots per inch (unit 1)
+    expect(tags['ICC_Profile:ProfileDescription']).toBe('sRGB');
+    expect([tags['JFIF:XResolution'], tags['JFIF:YResolution'], tags['JFIF:ResolutionUnit']]).toEqual([600, 600, 1]);
+    expect(tags['ExifTool:Warning']).toBeUndefined();
   });
 
   it('reads nothing, and does not throw, from a damaged EXIF block', () => {
