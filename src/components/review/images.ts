@@ -6,9 +6,10 @@
 
 import { geometryPlan, hasGeometry, identityCorrection, type Correction, type GeometryPlan } from '../../lib/restoration/correction.ts';
 import { previewGeometry, uprightRect } from '../../lib/review/adjust.ts';
+import { COMPARE_SIDE } from '../../lib/restoration/scan-sizes.ts';
 
-/** Long side of the preview the compare view works on. */
-export const PREVIEW_SIDE = 2048;
+/** Long side of the preview the compare view works on (the server keeps the original's at this size). */
+export const PREVIEW_SIDE = COMPARE_SIDE;
 
 /** Decoded original pixels ready to draw and to correct. */
 export interface LoadedPixels {

@@ -5,7 +5,7 @@
  * pixel limit read from the header before anything is decoded), stored once per archive under
  * its SHA-256, described by its EXIF, and becomes an item of the batch with its analysis queued.
  */
-import { createHash, randomUUID } from 'node:crypto';
+import { randomUUID } from 'node:crypto';
 import { open } from 'node:fs/promises';
 import type { Readable } from 'node:stream';
 import ExifReader from 'exifreader';
@@ -15,7 +15,6 @@ import { probeWithHead, ScanRejected, type ScanProbe } from '../restoration/imag
 import type { UploadLimits, UploadOutcome } from '../batches/schemas.ts';
 import { recordAudit } from './audit.ts';
 import { config } from './config.ts';
-import { TooLarge } from './errors.ts';
 import { enqueueAnalyse } from './processing.ts';
 import { storage } from './storage.ts';
 
@@ -63,24 +62,6 @@ async function numberByName(batchId: string, uploadKey: string, transaction: Tra
 }
 
 const FORMAT_FILE = { jpeg: { mime: 'image/jpeg', ext: '.jpg' }, png: { mime: 'image/png', ext: '.png' }, tiff: { mime: 'image/tiff', ext: '.tif' } } as const;
-
-/** Bytes and SHA-256 of a stream as it passes, refusing a file past the byte limit. */
-interface Meter {
-  bytes: number;
-  hash: ReturnType<typeof createHash>;
-  maxBytes: number;
-}
-
-async function* metered(body: Readable | AsyncIterable<Uint8Array>, meter: Meter): AsyncIterable<Buffer> {
-  // A generator pulled by the disk writer keeps back-pressure from disk all the way to the request body.
-  for await (const chunk of body) {
-    const buf = Buffer.isBuffer(chunk) ? chunk : Buffer.from(chunk as Uint8Array);
-    meter.bytes += buf.length;
-    if (meter.bytes > meter.maxBytes) throw new TooLarge(`The file is larger than the limit of ${Math.round(meter.maxBytes / 1048576)} MB.`);
-    meter.hash.update(buf);
-    yield buf;
-  }
-}
 
 /** A file name fit to show and store: no control characters, no more than 300 characters. */
 export function cleanName(name: string): string {
@@ -183,11 +164,10 @@ export async function storeScanOriginal(input: Omit<IngestInput, 'batchId'>): Pr
   const store = storage();
   // Staged under a key of its own, so a refused file never reaches the write-once originals.
   const stageKey = `incoming/${randomUUID()}.part`;
-  const meter: Meter = { bytes: 0, hash: createHash('sha256'), maxBytes: limits.maxBytes };
   try {
-    await store.put(stageKey, metered(input.body, meter));
-    if (meter.bytes === 0) throw new ScanRejected('empty', 'The file is empty (0 bytes).');
-    const sha256 = meter.hash.digest('hex');
+    // hashed as it is written: the store files it under that hash without reading it again
+    const { sha256, bytes } = await store.stage(stageKey, input.body, { maxBytes: limits.maxBytes });
+    if (bytes === 0) throw new ScanRejected('empty', 'The file is empty (0 bytes).');
     const stagePath = await store.localPath(stageKey);
     const { probe, head } = await probeWithHead(stagePath, { maxBytes: limits.maxBytes, maxPixels: limits.maxPixels });
     const existing = await Original.findOne({ where: { archiveId: input.archiveId, sha256 } });

@@ -1,9 +1,8 @@
 /**
- * The full-resolution corrected JPEG of one correction version of an item: made by the render
- * queue (jobs/render.ts, on the worker's engine threads) and, for a print whose render has not
- * been made yet, by the export job itself. The files go under renders/<item>/v<version>.jpg, so a
- * retried render overwrites its own output; the item points at the newest rendered version, never
- * back at an older one.
+ * The full-resolution corrected JPEG of one correction version of an item, made by the render
+ * queue (jobs/render.ts, on the worker's engine threads). The files go under
+ * renders/<item>/v<version>.jpg, so a retried render overwrites its own output; the item points at
+ * the newest rendered version, never back at an older one.
  */
 import { Op, literal } from 'sequelize';
 import { Correction, Item, Original } from '../../../db/index.ts';
@@ -58,14 +57,4 @@ export async function renderItemVersion(itemId: string, version: number, rendere
     { where: { id: itemId, [Op.or]: [{ renderVersion: null }, { renderVersion: { [Op.lt]: version } }] } },
   );
   return 'rendered';
-}
-
-/** An item whose current version is not rendered yet gets it rendered now; returns its render's key. */
-export async function currentRenderKey(item: Item, renderer?: Renderer): Promise<string | null> {
-  const current = item.currentVersion ?? 0;
-  if (current > 0 && (item.renderVersion ?? 0) < current) {
-    await renderItemVersion(item.id, current, renderer);
-    await item.reload({ attributes: ['renderKey', 'renderVersion'] });
-  }
-  return item.renderKey ?? null;
 }

@@ -31,6 +31,12 @@ export interface BlobStore {
    * caller to remove. Same result and rules as {@link putContentAddressed}.
    */
   linkContentAddressed(prefix: string, stagedKey: string, sha256: string, opts?: { ext?: string }): Promise<StoredBlob>;
+  /**
+   * Stages a body under `stagedKey` (outside the write-once prefixes), hashing it while it is
+   * written and making it durable, refusing more than maxBytes. The store remembers the hash it
+   * computed, so {@link linkContentAddressed} of that key files it without reading it again.
+   */
+  stage(stagedKey: string, body: Readable | AsyncIterable<Uint8Array>, opts?: { maxBytes?: number }): Promise<{ key: string; sha256: string; bytes: number }>;
   /** Writes a derived file (render, preview, export) atomically; an existing one is replaced. */
   put(key: string, body: Buffer | Readable | AsyncIterable<Uint8Array>): Promise<{ key: string; bytes: number }>;
   read(key: string, range?: { start: number; end?: number }): Readable;
@@ -39,7 +45,7 @@ export interface BlobStore {
   exists(key: string): Promise<boolean>;
   /** Removes a derived file; refuses originals. */
   remove(key: string): Promise<void>;
-  /** Deletes an original scan: only the purge of prints removed 30 days before does (removal.ts). */
+  /** Deletes an original scan and the copies of it kept in `cache/`: only the purge of prints removed 30 days before does (removal.ts). */
   purgeOriginal(key: string): Promise<void>;
   list(prefix: string): Promise<string[]>;
   /** A local file path for libraries that want one (sharp, pg_dump); a remote store would download to a temp file. */
@@ -74,12 +80,27 @@ export const STORED_FOLDERS = {
   /** Uploads being received and half-written files: swept away after a crash, never worth keeping. */
   incoming: 'left',
   tmp: 'left',
+  /**
+   * Copies made on demand and kept to be served again (the review's reduced whole scans, see
+   * {@link scanCopyKey}): made again when missing, so a backup leaves them.
+   */
+  cache: 'left',
   /** The development mail fake's caught mail and the processes' logs. */
   outbox: 'left',
   logs: 'left',
   /** The development database's own cluster folder (`npm start`): the backup holds a pg_dump instead. */
   postgres: 'left',
 } as const satisfies Record<string, 'carried' | 'left'>;
+
+/**
+ * Where a copy of an original scan reduced to `side` pixels is kept: beside the other copies of
+ * the same bytes, under the original's SHA-256 (originals are write-once, so a copy never goes
+ * stale), and removed with the original by {@link BlobStore.purgeOriginal}.
+ */
+export function scanCopyKey(originalKey: string, side: number): string {
+  const name = path.posix.basename(checkKey(originalKey)).replace(/\.[^.]*$/, '');
+  return checkKey(`cache/scans/${name.slice(0, 2)}/${name}-${Math.round(side)}.jpg`);
+}
 
 const KEY_PATTERN = /^[A-Za-z0-9][A-Za-z0-9._-]*(\/[A-Za-z0-9][A-Za-z0-9._-]*)*$/;
 const WRITE_ONCE_PREFIXES = ['originals/'];
@@ -116,6 +137,9 @@ class ByteLimit extends Transform {
 
 /** The local-disk implementation, rooted at STORAGE_DIR. */
 export class LocalDiskStore implements BlobStore {
+  /** Hashes this store computed while staging a file, by staged key (see {@link stage}). */
+  private readonly stagedHashes = new Map<string, { sha256: string; bytes: number }>();
+
   constructor(readonly root: string) {}
 
   private abs(key: string): string {
@@ -165,25 +189,56 @@ export class LocalDiskStore implements BlobStore {
     return { key, sha256, bytes: meter.bytes, created };
   }
 
+  async stage(stagedKey: string, body: Readable | AsyncIterable<Uint8Array>, opts: { maxBytes?: number } = {}): Promise<{ key: string; sha256: string; bytes: number }> {
+    if (WRITE_ONCE_PREFIXES.some((p) => stagedKey.startsWith(p))) throw new StorageKeyRefused(stagedKey);
+    const staged = this.abs(stagedKey);
+    const meter = new ByteLimit(opts.maxBytes ?? Number.MAX_SAFE_INTEGER);
+    try {
+      await fs.mkdir(path.dirname(staged), { recursive: true });
+      await pipeline(body instanceof Readable ? body : Readable.from(body), meter, createWriteStream(staged, { flags: 'wx', mode: 0o600 }));
+      const handle = await fs.open(staged, 'r');
+      try {
+        await handle.sync();
+      } finally {
+        await handle.close();
+      }
+    } catch (err) {
+      await fs.rm(staged, { force: true });
+      if (isNoSpace(err)) throw new StorageFull();
+      throw err;
+    }
+    const found = { sha256: meter.hash.digest('hex'), bytes: meter.bytes };
+    this.stagedHashes.set(stagedKey, found);
+    return { key: stagedKey, ...found };
+  }
+
   async linkContentAddressed(prefix: string, stagedKey: string, sha256: string, opts: { ext?: string } = {}): Promise<StoredBlob> {
     if (WRITE_ONCE_PREFIXES.some((p) => stagedKey.startsWith(p))) throw new StorageKeyRefused(stagedKey);
     const staged = this.abs(stagedKey);
     const key = checkKey(`${prefix}/${sha256.slice(0, 2)}/${sha256}${opts.ext ?? ''}`);
     const final = this.abs(key);
-    // Hash what is on disk, not what the caller says: the key must name these very bytes.
-    const handle = await fs.open(staged, 'r');
-    let bytes = 0;
-    try {
-      const hash = createHash('sha256');
-      for await (const chunk of handle.createReadStream({ autoClose: false })) {
-        hash.update(chunk as Buffer);
-        bytes += (chunk as Buffer).length;
+    // Hash what is on disk, not what the caller says: the key must name these very bytes. A file
+    // this store staged was hashed as it was written (and made durable): it is not read again.
+    let bytes: number;
+    const known = this.stagedHashes.get(stagedKey);
+    if (known) {
+      if (known.sha256 !== sha256) throw new Error(`checksum of the staged file is ${known.sha256}, not ${sha256}`);
+      bytes = known.bytes;
+    } else {
+      const handle = await fs.open(staged, 'r');
+      bytes = 0;
+      try {
+        const hash = createHash('sha256');
+        for await (const chunk of handle.createReadStream({ autoClose: false })) {
+          hash.update(chunk as Buffer);
+          bytes += (chunk as Buffer).length;
+        }
+        const found = hash.digest('hex');
+        if (found !== sha256) throw new Error(`checksum of the staged file is ${found}, not ${sha256}`);
+        await handle.sync();
+      } finally {
+        await handle.close();
       }
-      const found = hash.digest('hex');
-      if (found !== sha256) throw new Error(`checksum of the staged file is ${found}, not ${sha256}`);
-      await handle.sync();
-    } finally {
-      await handle.close();
     }
     await fs.mkdir(path.dirname(final), { recursive: true });
     let created = true;
@@ -204,6 +259,7 @@ export class LocalDiskStore implements BlobStore {
   async put(key: string, body: Buffer | Readable | AsyncIterable<Uint8Array>): Promise<{ key: string; bytes: number }> {
     const final = this.abs(key);
     if (WRITE_ONCE_PREFIXES.some((p) => key.startsWith(p))) throw new StorageKeyRefused(key);
+    this.stagedHashes.delete(key);
     const tmp = await this.tempFile();
     try {
       if (Buffer.isBuffer(body)) await fs.writeFile(tmp, body, { flag: 'wx' });
@@ -242,12 +298,18 @@ export class LocalDiskStore implements BlobStore {
 
   async remove(key: string): Promise<void> {
     if (WRITE_ONCE_PREFIXES.some((p) => key.startsWith(p))) throw new StorageKeyRefused(key);
+    this.stagedHashes.delete(key);
     await fs.rm(this.abs(key), { force: true });
   }
 
   async purgeOriginal(key: string): Promise<void> {
     if (!checkKey(key).startsWith('originals/')) throw new StorageKeyRefused(key);
     await fs.rm(this.abs(key), { force: true });
+    const copyPrefix = scanCopyKey(key, 0).replace(/0\.jpg$/, '');
+    const folder = this.abs(path.posix.dirname(copyPrefix));
+    const names = await fs.readdir(folder).catch(() => [] as string[]);
+    const own = path.posix.basename(copyPrefix);
+    for (const name of names) if (name.startsWith(own)) await fs.rm(path.join(folder, name), { force: true });
   }
 
   async list(prefix: string): Promise<string[]> {

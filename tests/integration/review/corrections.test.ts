@@ -6,7 +6,9 @@
  */
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { AuditEvent, closeDb } from '../../../db/index.ts';
+import { AuditEvent, Item, Original, closeDb } from '../../../db/index.ts';
+import { COMPARE_SIDE } from '../../../src/lib/restoration/scan-sizes.ts';
+import { scanCopyKey, storage } from '../../../src/lib/server/storage.ts';
 import { deltaE2000, srgbToLab } from '../../../src/lib/restoration/colour.ts';
 import { renderPreview, withDyeGain, withStrength, withWhitePoint } from '../../../src/lib/review/adjust.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
@@ -142,6 +144,26 @@ describe('crops for the 1:1 view', () => {
     const corrected = await fetch(`${process.env.APP_URL}/api/items/${id}/crop?of=corrected&x=0&y=0&w=64&h=64`, { headers: { authorization: `Bearer ${archive.viewer.token}` } });
     expect(corrected.status).toBe(200);
     expect(corrected.headers.get('x-correction-version')).toBeTruthy();
+  });
+
+  it("keeps the compare view's reduced original once made, and serves it again without decoding the scan", async () => {
+    const id = items[0].id;
+    const get = async () => Buffer.from(await (await fetch(`${process.env.APP_URL}/api/items/${id}/crop?max=${COMPARE_SIDE}`, { headers: { authorization: `Bearer ${archive.viewer.token}` } })).arrayBuffer());
+    const first = await get();
+    const item = (await Item.findByPk(id))!;
+    const original = (await Original.findByPk(item.originalId))!;
+    const key = scanCopyKey(original.storageKey, COMPARE_SIDE);
+    expect((await storage().readBuffer(key)).equals(first)).toBe(true);
+    // a stand-in where the kept copy is: served as it is, so the scan was not decoded again
+    const standIn = await sharp({ create: { width: 8, height: 8, channels: 3, background: '#102030' } }).jpeg().toBuffer();
+    await storage().put(key, standIn);
+    expect((await get()).equals(standIn)).toBe(true);
+    // gone, it is made again from the scan, the same bytes as the first time
+    await storage().remove(key);
+    expect((await get()).equals(first)).toBe(true);
+    // a size nobody asks for is made each time and not kept
+    await fetch(`${process.env.APP_URL}/api/items/${id}/crop?max=333`, { headers: { authorization: `Bearer ${archive.viewer.token}` } });
+    expect(await storage().exists(scanCopyKey(original.storageKey, 333))).toBe(false);
   });
 
   it('refuses regions outside the scan, half-given regions and oversized requests with 400', async () => {

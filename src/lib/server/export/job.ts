@@ -16,9 +16,8 @@ import { DEFAULT_NAME_PATTERN, NameBook, baseName, batchSpanFolder, folderFor } 
 import { sourceInWords } from '../../archive/source.ts';
 import { ZipBagWriter, zipBagSource } from '../bag-files.ts';
 import { peopleOf } from '../captions.ts';
-import { currentRenderKey } from '../renders.ts';
 import { storage } from '../storage.ts';
-import { embeddedJpeg, scanDateOf } from './embedding.ts';
+import { exportedJpeg, scanDateOf } from './embedding.ts';
 import { notifyReady } from './mail.ts';
 import { bagBaseName, exportKey } from './status.ts';
 
@@ -82,8 +81,7 @@ export async function runExport(exportId: string): Promise<void> {
       const encode = (id: string | undefined): Promise<Buffer | null> => {
         const it = id ? byId.get(id) : undefined;
         if (!it?.currentVersion) return Promise.resolve(null);
-        // a print whose full-size render has not been made yet (or is of an older version) is rendered here first
-        const p = currentRenderKey(it).then(async (key) => (key ? embeddedJpeg(await store.localPath(key), metaOf(it)) : null));
+        const p = exportedJpeg(it, originals.get(it.originalId), metaOf(it));
         // Awaited in turn below; marked handled now so a failure while the zip is busy cannot crash the worker.
         p.catch(() => undefined);
         return p;
