@@ -1,6 +1,5 @@
 import { Sequelize } from 'sequelize';
 import pg from 'pg';
-import { config } from '../src/lib/server/config.ts';
 import { User } from './models/User.ts';
 import { Archive } from './models/Archive.ts';
 import { Membership } from './models/Membership.ts';
@@ -44,21 +43,46 @@ function associate() {
   Suggestion.belongsTo(User, { foreignKey: 'suggestedBy', as: 'suggester' });
 }
 
-let instance: Sequelize | undefined;
+/** What the connection needs to know; the web server, the worker and the scripts pass their own (src/lib/server/database.ts). */
+export interface DbSettings {
+  /** A postgres:// URL. */
+  url: string;
+  /** Connections this process may hold at once. */
+  poolMax?: number;
+}
 
-/** The process-wide Sequelize connection with every model initialised. */
+let instance: Sequelize | undefined;
+let given: DbSettings | undefined;
+
+function connect(settings: DbSettings): Sequelize {
+  const sequelize = new Sequelize(settings.url, {
+    dialect: 'postgres',
+    dialectModule: pg,
+    logging: false,
+    pool: { max: settings.poolMax ?? 10, min: 0, idle: 10_000, acquire: 30_000 },
+    retry: { max: 5, match: [/ECONNREFUSED/, /ECONNRESET/, /the database system is (starting up|shutting down)/, /terminating connection/] },
+  });
+  for (const m of MODELS) m.initModel(sequelize);
+  associate();
+  return sequelize;
+}
+
+/**
+ * Opens the process-wide Sequelize connection with every model initialised (no query is made
+ * yet). Each process calls it once before its first query; calling it again with the same
+ * settings returns the same connection, with others once it is closed.
+ */
+export function openDb(settings: DbSettings): Sequelize {
+  if (instance && JSON.stringify(given) !== JSON.stringify(settings)) throw new Error('The database is open with other settings: close it first (closeDb).');
+  given = settings;
+  instance ??= connect(settings);
+  return instance;
+}
+
+/** The process-wide Sequelize connection, opened by {@link openDb} (and opened again with its settings after {@link closeDb}). */
 export function db(): Sequelize {
-  if (!instance) {
-    instance = new Sequelize(config().databaseUrl, {
-      dialect: 'postgres',
-      dialectModule: pg,
-      logging: false,
-      pool: { max: 10, min: 0, idle: 10_000, acquire: 30_000 },
-      retry: { max: 5, match: [/ECONNREFUSED/, /ECONNRESET/, /the database system is (starting up|shutting down)/, /terminating connection/] },
-    });
-    for (const m of MODELS) m.initModel(instance);
-    associate();
-  }
+  if (!given) throw new Error('The database is not open: this process must call openDb (src/lib/server/database.ts: openDatabase) before its first query.');
+  instance ??= connect(given);
   return instance;
 }
 
@@ -69,6 +93,3 @@ export async function closeDb(): Promise<void> {
     instance = undefined;
   }
 }
-
-// Models are usable as soon as this module is imported (the connection opens on the first query).
-db();

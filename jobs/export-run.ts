@@ -7,9 +7,11 @@
  */
 import sharp from 'sharp';
 import { closeDb } from '../db/index.ts';
+import { openDatabase } from '../src/lib/server/database.ts';
 import { runExport } from '../src/lib/server/export/job.ts';
 
 sharp.cache(false);
+openDatabase();
 const exportId = process.argv[2];
 // The worker that started this process holds the other end of its stdin: when the worker dies,
 // even by kill -9, stdin ends and so does this export, which the next worker then picks up again

@@ -5,6 +5,7 @@
 import type PgBoss from 'pg-boss';
 import sharp from 'sharp';
 import { closeDb } from '../db/index.ts';
+import { openDatabase } from '../src/lib/server/database.ts';
 import { config } from '../src/lib/server/config.ts';
 import { queue, stopQueue } from '../src/lib/server/queue.ts';
 import { HANDLERS } from './registry.ts';
@@ -16,6 +17,8 @@ import { schedulePurge } from './purge-removed.ts';
 import { requeueInterrupted, startPresence, stopPresence } from './presence.ts';
 
 sharp.cache(false);
+
+openDatabase();
 
 const RECONCILE_MINUTES = 10;
 

@@ -1,15 +1,18 @@
 import { randomUUID } from 'node:crypto';
 import { defineMiddleware } from 'astro:middleware';
 import type { MiddlewareHandler } from 'astro';
-import { User } from '../db/index.ts';
 import { ARCHIVE_COOKIE } from './lib/server/access.ts';
 import { userForToken } from './lib/server/api-tokens.ts';
-import { sessionUserId } from './lib/server/auth.ts';
+import { sessionUser } from './lib/server/auth.ts';
 import { refuseDeclaredOversize } from './lib/server/body-limits.ts';
 import { config } from './lib/server/config.ts';
 import { CONTENT_SECURITY_POLICY } from './lib/server/content-policy.ts';
 import { errorResponse, isDatabaseOutage, outageResponse } from './lib/server/http.ts';
+import { openDatabase } from './lib/server/database.ts';
 import { membershipsFor } from './lib/server/members.ts';
+
+// The web server's database, opened with its settings once, when the server loads its middleware.
+openDatabase();
 
 /** Pages anyone may open; everything else under / needs a signed-in user. */
 const PUBLIC_PAGES = [/^\/signin\/?$/, /^\/invite\/[^/]+\/?$/, /^\/outbox(\/.*)?$/, /^\/help(\/.*)?$/];
@@ -92,12 +95,8 @@ const handleRequest = async (...[ctx, next]: Parameters<MiddlewareHandler>): Pro
     locals.user = { id: found.user.id, email: found.user.email, name: found.user.name };
     locals.authVia = 'token';
   } else {
-    const userId = await sessionUserId(request);
-    const user = userId ? await User.findByPk(userId) : null;
-    if (user) {
-      locals.user = { id: user.id, email: user.email, name: user.name };
-      locals.authVia = 'session';
-    }
+    locals.user = await sessionUser(request);
+    if (locals.user) locals.authVia = 'session';
   }
 
   if (locals.user) {

@@ -11,6 +11,7 @@ export default defineConfig({
   test: {
     include: ['tests/unit/**/*.test.ts', 'tests/integration/**/*.test.ts', 'tests/e2e/**/*.test.ts'],
     globalSetup: ['tests/support/global-setup.ts'],
+    setupFiles: ['tests/support/database.ts'],
     testTimeout: 120_000,
     hookTimeout: 180_000,
     pool: 'forks',

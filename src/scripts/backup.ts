@@ -1,6 +1,9 @@
 /** `npm run backup -- <dir>`: a consistent pg_dump plus the originals and renders, with checksums. */
 import { closeDb } from '../../db/index.ts';
+import { openDatabase } from '../lib/server/database.ts';
 import { backup } from '../lib/server/backup.ts';
+
+openDatabase();
 
 const dir = process.argv[2];
 if (!dir) {

@@ -14,7 +14,8 @@ import { readdir, stat } from 'node:fs/promises';
 import { basename, join, relative, resolve } from 'node:path';
 import { parseArgs } from 'node:util';
 import { watch } from 'chokidar';
-import { Archive, Batch, Item, Membership, User, closeDb, db } from '../../db/index.ts';
+import { Archive, Batch, Item, Membership, User, closeDb } from '../../db/index.ts';
+import { openDatabase } from '../lib/server/database.ts';
 import { roleAtLeast } from '../lib/auth/roles.ts';
 import { batchCreateSchema } from '../lib/batches/schemas.ts';
 import { ScanRejected } from '../lib/restoration/errors.ts';
@@ -130,7 +131,7 @@ async function listFiles(dir: string, skipped: (path: string, reason: string) =>
 async function attachRescanFromFile(opts: { item: string; as?: string; file: string }): Promise<number> {
   const st = await stat(opts.file).catch(() => null);
   if (!st?.isFile()) throw new UsageError(`${opts.file} is not a file`);
-  db();
+  openDatabase();
   const item = /^[0-9a-f-]{36}$/i.test(opts.item) ? await Item.findByPk(opts.item.toLowerCase()) : null;
   if (!item) throw new UsageError(`there is no item ${opts.item}`);
   const user = await actingUser(item.archiveId, opts.as);
@@ -153,7 +154,7 @@ async function main(): Promise<number> {
   const opts = parsed;
   const st = await stat(opts.folder).catch(() => null);
   if (!st?.isDirectory()) throw new UsageError(`${opts.folder} is not a folder`);
-  db();
+  openDatabase();
   const archive = await Archive.findOne({ where: { slug: opts.archive } });
   if (!archive) throw new UsageError(`there is no archive "${opts.archive}"`);
   const user = await actingUser(archive.id, opts.as);

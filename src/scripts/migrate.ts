@@ -1,7 +1,10 @@
 /** `npm run migrate [-- --down all|N]`: applies (or reverts) the migrations in db/migrations. */
 import { parseArgs } from 'node:util';
 import { closeDb, db } from '../../db/index.ts';
+import { openDatabase } from '../lib/server/database.ts';
 import { migrator } from '../lib/server/migrations.ts';
+
+openDatabase();
 
 const { values } = parseArgs({ options: { down: { type: 'string' } } });
 const m = migrator(db());

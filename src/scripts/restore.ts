@@ -1,7 +1,10 @@
 /** `npm run restore -- <dir>`: restores a backup into an empty install (empty database and storage). */
 import { QueryTypes } from 'sequelize';
 import { closeDb, db } from '../../db/index.ts';
+import { openDatabase } from '../lib/server/database.ts';
 import { restore } from '../lib/server/backup.ts';
+
+openDatabase();
 
 const dir = process.argv[2];
 if (!dir) {

@@ -7,10 +7,13 @@ import { execFileSync, spawnSync } from 'node:child_process';
 import fs from 'node:fs';
 import path from 'node:path';
 import { closeDb, db } from '../../db/index.ts';
+import { openDatabase } from '../lib/server/database.ts';
 import { config } from '../lib/server/config.ts';
 import { migrator } from '../lib/server/migrations.ts';
 import { portFree, startProcess, waitForPort, WORKER_NICENESS, workerEnv, type StackProcess } from './processes.ts';
 import { DEMO_PASSWORD, DEMO_USERS, seedDemo } from '../../db/seeders/demo.ts';
+
+openDatabase();
 
 const root = process.cwd();
 const c = config();

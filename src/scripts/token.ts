@@ -1,11 +1,12 @@
 /** `npm run token -- --email <user> --name <label>`: prints a new personal API token for an existing user. */
 import { parseArgs } from 'node:util';
-import { closeDb, db, User } from '../../db/index.ts';
+import { closeDb, User } from '../../db/index.ts';
+import { openDatabase } from '../lib/server/database.ts';
 import { createApiToken } from '../lib/server/api-tokens.ts';
 import { recordAudit } from '../lib/server/audit.ts';
 
 const { values } = parseArgs({ options: { email: { type: 'string' }, name: { type: 'string' } } });
-db();
+openDatabase();
 try {
   if (!values.email || !values.name) {
     console.error('usage: npm run token -- --email <user> --name <label>');

@@ -19,9 +19,12 @@ import { readFileSync } from 'node:fs';
 import { Readable } from 'node:stream';
 import sharp from 'sharp';
 import { Batch, Item, Original, closeDb } from '../../db/index.ts';
+import { openDatabase } from '../../src/lib/server/database.ts';
 import { AGEING_MODELS, agePixels, encodeScene, generateScene } from '../../src/lib/demo/synthetic.ts';
 import { storage } from '../../src/lib/server/storage.ts';
 import { makeArchive } from '../support/fixtures.ts';
+
+openDatabase();
 
 const countFlag = process.argv.indexOf('--count');
 const COUNT = Number(countFlag > 0 ? process.argv[countFlag + 1] : (process.env.BENCH_COUNT ?? 100));

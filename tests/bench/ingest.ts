@@ -19,6 +19,7 @@ import { join } from 'node:path';
 import { Readable } from 'node:stream';
 import sharp from 'sharp';
 import { closeDb } from '../../db/index.ts';
+import { openDatabase } from '../../src/lib/server/database.ts';
 import { isSettled } from '../../src/lib/batches/schemas.ts';
 import { stateCounts } from '../../src/lib/server/batches.ts';
 import { AGEING_MODELS, agePixels, encodeScene, generateScene, type Ageing } from '../../src/lib/demo/synthetic.ts';
@@ -28,6 +29,8 @@ import { describeFloor, measureFloor } from './floor.ts';
 import { Agent, request } from 'node:http';
 import { readdirSync } from 'node:fs';
 import { makeArchive } from '../support/fixtures.ts';
+
+openDatabase();
 
 const COUNT = Number(process.env.BENCH_COUNT ?? 100);
 const WIDTH = 3600;

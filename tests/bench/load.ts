@@ -17,9 +17,12 @@ import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { Op, QueryTypes } from 'sequelize';
 import { Original, closeDb, db } from '../../db/index.ts';
+import { openDatabase } from '../../src/lib/server/database.ts';
 import { AGEING_MODELS, syntheticScan } from '../../src/lib/demo/synthetic.ts';
 import { asToken, makeArchive } from '../support/fixtures.ts';
 import { createBatch, sha256, upload } from '../support/scans.ts';
+
+openDatabase();
 
 const UPLOADERS = 4;
 const PER_UPLOADER = Number(process.env.BENCH_LOAD_FILES ?? 50);

@@ -26,11 +26,14 @@ import { Readable } from 'node:stream';
 import type { BrowserContext, Page } from 'playwright-core';
 import sharp from 'sharp';
 import { Batch, Item, ItemPerson, Original, Person } from '../../db/index.ts';
+import { openDatabase } from '../../src/lib/server/database.ts';
 import { AGEING_MODELS, syntheticScan } from '../../src/lib/demo/synthetic.ts';
 import { storage } from '../../src/lib/server/storage.ts';
 import { TEST_PASSWORD, type TestArchive } from '../support/fixtures.ts';
 import { launchBrowser } from '../support/browser.ts';
 import { Client, signedIn } from '../support/http.ts';
+
+openDatabase();
 
 const BASE = process.env.APP_URL!;
 const PRINTS = Number(process.env.BENCH_PRINTS ?? 1000);

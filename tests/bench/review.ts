@@ -18,11 +18,14 @@
  * Ends with `split_drag_p95_ms: <n>` and `slider_to_screen_ms: <n>`.
  */
 import { closeDb } from '../../db/index.ts';
+import { openDatabase } from '../../src/lib/server/database.ts';
 import { AGEING_MODELS, syntheticScan } from '../../src/lib/demo/synthetic.ts';
 import { makeArchive, TEST_PASSWORD } from '../support/fixtures.ts';
 import { launchBrowser } from '../support/browser.ts';
 import { Client } from '../support/http.ts';
 import { benchBatchPage } from './review-batch.ts';
+
+openDatabase();
 
 const BASE = process.env.APP_URL!;
 const DRAG_PASSES = Number(process.env.BENCH_DRAG_PASSES ?? 8);

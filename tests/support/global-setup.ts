@@ -6,6 +6,7 @@
 import fs from 'node:fs';
 import path from 'node:path';
 import { closeDb, db } from '../../db/index.ts';
+import { openDatabase } from '../../src/lib/server/database.ts';
 import { seedDemo } from '../../db/seeders/demo.ts';
 import { migrator } from '../../src/lib/server/migrations.ts';
 import { startProcess, waitForPort, type StackProcess } from '../../src/scripts/processes.ts';
@@ -16,6 +17,7 @@ const procs: StackProcess[] = [];
 export async function setup() {
   const run = process.env.DRAWERLIGHT_TEST_RUN;
   if (!run) return;
+  openDatabase();
   await migrator(db()).up();
   await seedDemo({ withContent: false });
   await closeDb();

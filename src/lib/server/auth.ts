@@ -7,6 +7,7 @@ import SequelizeAdapter from '@auth/sequelize-adapter';
 import { QueryTypes } from 'sequelize';
 import { z } from 'zod';
 import { db, User, VerificationToken } from '../../../db/index.ts';
+import type { SignedInUser } from './access.ts';
 import { config } from './config.ts';
 import { linkMail, sendMail } from './mailer.ts';
 import { verifyPassword } from './passwords.ts';
@@ -129,8 +130,15 @@ export function handleAuth(request: Request): Promise<Response> {
   return Auth(request, getAuthConfig());
 }
 
+/** The user signed in by the request's session cookie, or null (no cookie, an expired session, a removed user). */
+export async function sessionUser(request: Request): Promise<SignedInUser | null> {
+  const userId = await sessionUserId(request);
+  const user = userId ? await User.findByPk(userId) : null;
+  return user ? { id: user.id, email: user.email, name: user.name } : null;
+}
+
 /** The signed-in user's id from the session cookie, or null. */
-export async function sessionUserId(request: Request): Promise<string | null> {
+async function sessionUserId(request: Request): Promise<string | null> {
   const cookie = request.headers.get('cookie');
   if (!cookie || !/authjs\.session-token/.test(cookie)) return null;
   const url = new URL(`${AUTH_BASE_PATH}/session`, request.url);

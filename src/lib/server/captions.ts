@@ -7,19 +7,10 @@ import { Op, QueryTypes, type Transaction } from 'sequelize';
 import { Batch, Item, ItemPerson, Person, Suggestion, db } from '../../../db/index.ts';
 import { dateInWords } from '../archive/edtf.ts';
 import type { ItemMetadata, MetadataChange } from '../archive/metadata.ts';
-import type { Role } from '../auth/roles.ts';
-import { requireArchiveRole, requireUser } from './access.ts';
 import { recordAudit } from './audit.ts';
-import { InvalidInput, NotFound } from './errors.ts';
-
-/** The print `id` if the caller holds `role` in its archive: 404 for another archive's, 403 for a lower role. */
-export async function printForCaller(locals: App.Locals, id: string, role: Role, transaction?: Transaction): Promise<Item> {
-  requireUser(locals);
-  const item = await Item.findByPk(id, { transaction, lock: transaction ? transaction.LOCK.UPDATE : undefined });
-  if (!item || !locals.memberships.some((m) => m.archiveId === item.archiveId)) throw new NotFound('That print');
-  requireArchiveRole(locals, item.archiveId, role, 'That print');
-  return item;
-}
+import { batchForCaller } from './batches.ts';
+import { InvalidInput } from './errors.ts';
+import { loadItemFor } from './item-access.ts';
 
 /** Names of the people tagged on each of `itemIds`, in caption order. */
 export async function peopleOf(itemIds: string[], transaction?: Transaction): Promise<Map<string, string[]>> {
@@ -141,7 +132,7 @@ export async function batchMetadata(batchId: string): Promise<ItemMetadata[]> {
 export async function updateMetadata(locals: App.Locals, itemId: string, change: MetadataChange): Promise<ItemMetadata> {
   const userId = locals.user?.id ?? null;
   const item = await db().transaction(async (transaction) => {
-    const it = await printForCaller(locals, itemId, 'editor', transaction);
+    const it = await loadItemFor(locals, itemId, 'editor', { transaction });
     const changed = await applyMetadata(it, change, userId, transaction);
     if (changed.length) {
       await recordAudit({ archiveId: it.archiveId, actorId: userId, action: 'item.caption', subjectType: 'item', subjectId: it.id, details: { fields: changed }, requestId: locals.requestId }, transaction);
@@ -157,10 +148,7 @@ export async function bulkUpdateMetadata(
   batchId: string,
   input: { itemIds: string[]; set: MetadataChange; peopleMode: 'add' | 'replace' },
 ): Promise<{ updated: number; items: ItemMetadata[] }> {
-  requireUser(locals);
-  const batch = await Batch.findByPk(batchId);
-  if (!batch || !locals.memberships.some((m) => m.archiveId === batch.archiveId)) throw new NotFound('That batch');
-  requireArchiveRole(locals, batch.archiveId, 'editor', 'That batch');
+  const batch = await batchForCaller(locals, batchId, 'editor');
   const userId = locals.user!.id;
   const ids = [...new Set(input.itemIds.map((i) => i.toLowerCase()))];
   const items = await db().transaction(async (transaction) => {
@@ -181,12 +169,12 @@ export async function bulkUpdateMetadata(
   return { updated: list.length, items: list };
 }
 
-/** People of an archive whose names start with (or contain a word starting with) `q`, for autocomplete. */
+/** People of an archive whose names start with (or contain a word starting with) `q`, accents optional ("Zoe" finds "Zoë"), for autocomplete. */
 export async function findPeople(archiveId: string, q = '', limit = 20): Promise<{ id: string; name: string; prints: number }[]> {
   const term = q.normalize('NFC').trim().toLowerCase();
   const rows = await db().query<{ id: string; name: string; prints: string }>(
     `SELECT p.id, p.name, count(ip.item_id) AS prints FROM people p LEFT JOIN item_people ip ON ip.person_id = p.id
-     WHERE p.archive_id = :archiveId AND (:term = '' OR lower(p.name) LIKE :prefix OR lower(p.name) LIKE :word)
+     WHERE p.archive_id = :archiveId AND (:term = '' OR search_fold(p.name) LIKE search_fold(:prefix) OR search_fold(p.name) LIKE search_fold(:word))
      GROUP BY p.id ORDER BY count(ip.item_id) DESC, p.name LIMIT :limit`,
     { replacements: { archiveId, term, prefix: `${escapeLike(term)}%`, word: `% ${escapeLike(term)}%`, limit }, type: QueryTypes.SELECT },
   );

@@ -9,7 +9,7 @@ import { copiedCorrection, type CorrectionCopyInput } from '../review/correction
 import { recordAudit } from './audit.ts';
 import { AppError, Conflict, InvalidInput } from './errors.ts';
 import { requestRender } from './processing.ts';
-import { itemForRole } from './review/access.ts';
+import { loadItemFor } from './item-access.ts';
 
 export interface CopyResult {
   from: { id: string; version: number };
@@ -29,7 +29,7 @@ function parsed(raw: unknown): CorrectionParams | null {
 export async function copyCorrection(locals: App.Locals, sourceId: string, input: CorrectionCopyInput): Promise<CopyResult> {
   const userId = locals.user!.id;
   const result = await db().transaction(async (transaction) => {
-    const source = await itemForRole(locals, sourceId, 'editor', transaction);
+    const source = await loadItemFor(locals, sourceId, 'editor', { transaction });
     if (!source.currentVersion) throw new Conflict('This print has no saved correction to use on others yet.', 'no_correction');
     if (input.fromVersion !== undefined && input.fromVersion !== source.currentVersion) {
       throw new AppError(409, 'stale_correction', `Version ${source.currentVersion} of this print's correction was saved after the version ${input.fromVersion} you are looking at. Nothing was copied: look at it again first.`, {

@@ -1,8 +1,10 @@
 /**
  * Typed errors carrying an HTTP status and a stable code. Domain code throws these;
  * `apiRoute` turns them into the one JSON error shape:
- * `{ "error": { "code": "...", "message": "...", "fields": {...} } }`.
+ * `{ "error": { "code": "...", "message": "...", "fields": {...} } }`, and pages show their message.
  */
+import type { ScanRejected } from '../restoration/errors.ts';
+
 export class AppError extends Error {
   constructor(
     readonly status: number,
@@ -52,6 +54,12 @@ export class UnsupportedType extends AppError {
 export class TooManyRequests extends AppError {
   constructor(message = 'Too many attempts. Wait a few minutes and try again.', readonly retryAfterSeconds = 60) {
     super(429, 'too_many_requests', message);
+  }
+}
+/** A file refused as a scan by the engine (empty, not an image we read, too many pixels, damaged), named in `fields.file`. */
+export class RefusedScan extends AppError {
+  constructor(rejected: ScanRejected, fileName: string) {
+    super(rejected.status, rejected.code, rejected.message, { file: fileName });
   }
 }
 export class StorageFull extends AppError {

@@ -1,7 +1,7 @@
 import type { APIContext, APIRoute } from 'astro';
 import { ZodError, type ZodType, type z } from 'zod';
 import { readJsonBody } from './body-limits.ts';
-import { AppError, InvalidInput } from './errors.ts';
+import { AppError, InvalidInput, TooManyRequests } from './errors.ts';
 // Loaded with the middleware, so that it notes every request's response from the first on.
 export { pacedBody } from './paced-body.ts';
 
@@ -13,10 +13,10 @@ export function json(body: unknown, status = 200, headers: Record<string, string
   });
 }
 
-/** The one JSON error shape of the API. */
-export function errorResponse(status: number, code: string, message: string, fields?: Record<string, string>): Response {
+/** The one JSON error shape of the API; `retryAfterSeconds` for a 429 (a minute unless said). */
+export function errorResponse(status: number, code: string, message: string, fields?: Record<string, string>, retryAfterSeconds = 60): Response {
   const headers: Record<string, string> = {};
-  if (status === 429) headers['retry-after'] = '60';
+  if (status === 429) headers['retry-after'] = String(retryAfterSeconds);
   if (status === 503) headers['retry-after'] = String(OUTAGE_RETRY_SECONDS);
   return json({ error: { code, message, ...(fields ? { fields } : {}) } }, status, headers);
 }
@@ -67,7 +67,7 @@ export function apiRoute(handler: (ctx: APIContext) => Promise<Response> | Respo
     try {
       return await handler(ctx);
     } catch (err) {
-      if (err instanceof AppError) return errorResponse(err.status, err.code, err.message, err.fields);
+      if (err instanceof AppError) return errorResponse(err.status, err.code, err.message, err.fields, err instanceof TooManyRequests ? err.retryAfterSeconds : undefined);
       if (err instanceof ZodError) return errorResponse(400, 'invalid_input', 'Some fields need attention.', zodFields(err));
       const requestId = ctx.locals.requestId;
       if (isDatabaseOutage(err)) {
@@ -78,4 +78,18 @@ export function apiRoute(handler: (ctx: APIContext) => Promise<Response> | Respo
       return errorResponse(500, 'internal', `Something went wrong on our side (request ${requestId}). Nothing was lost; try again.`);
     }
   };
+}
+
+/**
+ * What a page loads, or the refusal it shows instead: a typed error (404 for another archive's
+ * print, 403 for a lower role…) becomes the page's status and its message; anything else is thrown.
+ */
+export async function loadForPage<T>(response: { status: number }, load: () => Promise<T>): Promise<{ data: T; problem: null } | { data: null; problem: AppError }> {
+  try {
+    return { data: await load(), problem: null };
+  } catch (err) {
+    if (!(err instanceof AppError)) throw err;
+    response.status = err.status;
+    return { data: null, problem: err };
+  }
 }

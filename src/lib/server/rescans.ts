@@ -8,7 +8,7 @@ import { QueryTypes } from 'sequelize';
 import { Correction, Item, Original, db } from '../../../db/index.ts';
 import { sourceInWords } from '../archive/source.ts';
 import { recordAudit } from './audit.ts';
-import { printForCaller } from './captions.ts';
+import { loadItemFor } from './item-access.ts';
 import { Conflict, NotFound } from './errors.ts';
 import { storeScanOriginal } from './ingest.ts';
 import { enqueueAnalyse } from './processing.ts';
@@ -149,7 +149,7 @@ export interface AttachRescanResult {
  * @throws {Conflict} while the item is still being analysed, or for the very same scan again
  */
 export async function attachRescan(locals: App.Locals, input: AttachRescanInput): Promise<AttachRescanResult> {
-  await printForCaller(locals, input.itemId, 'editor');
+  await loadItemFor(locals, input.itemId, 'editor');
   return attachRescanAs({ ...input, userId: locals.user!.id, requestId: locals.requestId });
 }
 

@@ -27,8 +27,8 @@ function signinLimiters() {
 
 const accountKey = (address: string, email: string) => `${address} ${email}`;
 
-/** Throws TooManyRequests when this address, or this address for this account, used up its attempts. */
-export async function checkSigninAllowed(address: string, email: string): Promise<void> {
+/** The refusal to give when this address, or this address for this account, used up its attempts; null while attempts are left. */
+export async function signinRefusal(address: string, email: string): Promise<TooManyRequests | null> {
   const { perAccount, perAddress } = signinLimiters();
   const [account, overall] = await Promise.all([perAccount.get(accountKey(address, email)), perAddress.get(address)]);
   for (const [res, limit] of [
@@ -36,9 +36,10 @@ export async function checkSigninAllowed(address: string, email: string): Promis
     [overall, perAddress.points],
   ] as const) {
     if (res && res.consumedPoints >= limit) {
-      throw new TooManyRequests('Too many sign-in attempts. Wait a few minutes and try again.', Math.max(1, Math.ceil(res.msBeforeNext / 1000)));
+      return new TooManyRequests('Too many sign-in attempts. Wait a few minutes and try again.', Math.max(1, Math.ceil(res.msBeforeNext / 1000)));
     }
   }
+  return null;
 }
 
 /** Counts one failed attempt (a wrong password, or a request for a sign-in link, which costs an e-mail). */

@@ -7,7 +7,8 @@ import { dateInWords } from '../archive/edtf.ts';
 import type { MetadataChange, SuggestionView } from '../archive/metadata.ts';
 import { requireArchiveRole, requireUser } from './access.ts';
 import { recordAudit } from './audit.ts';
-import { applyMetadata, printForCaller } from './captions.ts';
+import { applyMetadata } from './captions.ts';
+import { loadItemFor } from './item-access.ts';
 import { Conflict, NotFound } from './errors.ts';
 
 export interface SuggestionChange {
@@ -38,7 +39,7 @@ async function view(s: Suggestion): Promise<SuggestionView> {
 
 /** Records a suggestion for a print; any member (viewers above all) may suggest. */
 export async function suggest(locals: App.Locals, itemId: string, input: SuggestionChange): Promise<SuggestionView> {
-  const item = await printForCaller(locals, itemId, 'viewer');
+  const item = await loadItemFor(locals, itemId, 'viewer');
   const s = await Suggestion.create({
     archiveId: item.archiveId,
     itemId: item.id,
@@ -58,7 +59,7 @@ export async function suggest(locals: App.Locals, itemId: string, input: Suggest
  * is not put in front of another before an editor has looked.
  */
 export async function suggestionsFor(locals: App.Locals, itemId: string, state?: 'pending' | 'accepted' | 'declined'): Promise<SuggestionView[]> {
-  const item = await printForCaller(locals, itemId, 'viewer');
+  const item = await loadItemFor(locals, itemId, 'viewer');
   const m = locals.memberships.find((x) => x.archiveId === item.archiveId)!;
   const where: Record<string, unknown> = { itemId: item.id };
   if (state) where.state = state;

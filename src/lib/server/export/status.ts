@@ -2,7 +2,8 @@
 import { ArchiveExport } from '../../../../db/index.ts';
 import type { ExportStatus } from '../../archive/exports.ts';
 import { requireArchiveRole, requireUser } from '../access.ts';
-import { NotFound } from '../errors.ts';
+import { Conflict, NotFound } from '../errors.ts';
+import { storage } from '../storage.ts';
 
 /** Shapes an export row for the API. */
 export function exportStatus(e: ArchiveExport): ExportStatus {
@@ -34,6 +35,16 @@ export async function exportForCaller(locals: App.Locals, id: string, role: 'vie
   if (!e || !locals.memberships.some((m) => m.archiveId === e.archiveId)) throw new NotFound('That export');
   requireArchiveRole(locals, e.archiveId, role, 'That export');
   return e;
+}
+
+/** A ready export's zip for download (editors): its storage key, size, file name and SHA-256; 409 while it is not ready. */
+export async function exportDownload(locals: App.Locals, id: string): Promise<{ key: string; bytes: number; fileName: string; sha256: string | null }> {
+  const e = await exportForCaller(locals, id, 'editor');
+  if (e.state !== 'ready' || !e.zipKey) throw new Conflict('That export is not ready yet.', 'not_ready');
+  const st = await storage().stat(e.zipKey);
+  if (!st) throw new NotFound('That export\'s zip');
+  const slug = locals.memberships.find((m) => m.archiveId === e.archiveId)?.slug ?? 'archive';
+  return { key: e.zipKey, bytes: st.bytes, fileName: exportFileName(slug, e), sha256: e.zipSha256 ?? null };
 }
 
 /** An archive's exports, newest first. */

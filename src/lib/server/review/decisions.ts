@@ -4,13 +4,13 @@
  */
 import { randomUUID } from 'node:crypto';
 import { Op } from 'sequelize';
-import { AuditEvent, Batch, Correction, Item, db } from '../../../../db/index.ts';
+import { AuditEvent, Correction, Item, db } from '../../../../db/index.ts';
 import { STATE_WORDS, type BulkDecisionInput, type Decision, type DecisionInput } from '../../review/index.ts';
 import type { ItemDetail } from '../../review/types.ts';
-import { requireArchiveRole } from '../access.ts';
 import { recordAudit } from '../audit.ts';
+import { batchForCaller } from '../batches.ts';
 import { Conflict, InvalidInput, NotFound } from '../errors.ts';
-import { itemForRole } from './access.ts';
+import { loadItemFor } from '../item-access.ts';
 import { assertReady, staleConflict } from './conflicts.ts';
 import { itemDetail } from './detail.ts';
 import { nextVersion } from './history.ts';
@@ -39,7 +39,7 @@ export async function decide(locals: App.Locals, itemId: string, input: Decision
   const userId = locals.user!.id;
   let queuedVersion: number | null = null;
   const item = await db().transaction(async (transaction) => {
-    const it = await itemForRole(locals, itemId, 'editor', transaction);
+    const it = await loadItemFor(locals, itemId, 'editor', { transaction });
     assertReady(it);
     if (it.lockVersion !== input.lockVersion) throw await staleConflict(it, transaction);
     let version = it.currentVersion;
@@ -101,9 +101,7 @@ function decisionState(it: Item) {
  * was loaded, or is not ready, is left alone and reported; the others are decided.
  */
 export async function bulkDecide(locals: App.Locals, batchId: string, input: BulkDecisionInput): Promise<BulkResult> {
-  const batch = await Batch.findByPk(batchId, { attributes: ['id', 'archiveId'] });
-  if (!batch) throw new NotFound('That batch');
-  requireArchiveRole(locals, batch.archiveId, 'editor', 'That batch');
+  const batch = await batchForCaller(locals, batchId, 'editor');
   const userId = locals.user!.id;
   const bulkId = randomUUID();
   return db().transaction(async (transaction) => {
@@ -153,9 +151,7 @@ export async function bulkDecide(locals: App.Locals, batchId: string, input: Bul
  * and reported. The undo is itself recorded, so the trail keeps both steps.
  */
 export async function undoBulkDecision(locals: App.Locals, batchId: string, bulkId: string): Promise<BulkResult> {
-  const batch = await Batch.findByPk(batchId, { attributes: ['id', 'archiveId'] });
-  if (!batch) throw new NotFound('That batch');
-  requireArchiveRole(locals, batch.archiveId, 'editor', 'That batch');
+  const batch = await batchForCaller(locals, batchId, 'editor');
   const userId = locals.user!.id;
   return db().transaction(async (transaction) => {
     const events = await AuditEvent.findAll({

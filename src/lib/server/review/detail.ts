@@ -51,3 +51,9 @@ export async function itemDetail(item: Item): Promise<ItemDetail> {
     next: next?.id ?? null,
   };
 }
+
+/** Every print of a batch in scan order, as the workbench walks them (position, what is decided, what to load ahead). */
+export async function reviewQueue(batchId: string): Promise<{ id: string; seq: number; decision: string | null; state: string }[]> {
+  const rows = await Item.findAll({ where: { batchId }, order: [['seq', 'ASC']], attributes: ['id', 'seq', 'decision', 'state'] });
+  return rows.map((r) => ({ id: r.id, seq: r.seq, decision: r.decision ?? null, state: r.state }));
+}

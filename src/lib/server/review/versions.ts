@@ -6,7 +6,7 @@ import type { ItemDetail } from '../../review/types.ts';
 import { recordAudit } from '../audit.ts';
 import { AppError, Conflict, NotFound } from '../errors.ts';
 import { requestRender } from '../processing.ts';
-import { itemForRole } from './access.ts';
+import { loadItemFor } from '../item-access.ts';
 import { assertReady, when } from './conflicts.ts';
 import { itemDetail } from './detail.ts';
 import { nextVersion, parseParams } from './history.ts';
@@ -27,7 +27,7 @@ async function addVersion(
 ): Promise<{ detail: ItemDetail; version: number }> {
   const userId = locals.user!.id;
   const { item, version } = await db().transaction(async (transaction) => {
-    const it = await itemForRole(locals, itemId, 'editor', transaction);
+    const it = await loadItemFor(locals, itemId, 'editor', { transaction });
     assertReady(it);
     if (basedOnVersion !== undefined && it.currentVersion !== basedOnVersion) {
       const latest = await Correction.findOne({ where: { itemId: it.id, version: it.currentVersion ?? 0 }, transaction });
@@ -59,7 +59,7 @@ export function saveCorrection(locals: App.Locals, itemId: string, input: Correc
 
 /** Makes an earlier version current again, as a new version (history is never rewritten), and queues its render. */
 export async function restoreVersion(locals: App.Locals, itemId: string, version: number) {
-  const item = await itemForRole(locals, itemId, 'editor');
+  const item = await loadItemFor(locals, itemId, 'editor');
   const old = await Correction.findOne({ where: { itemId: item.id, version } });
   if (!old) throw new NotFound(`Version ${version} of this print's correction`);
   const params = parseParams(old.params);

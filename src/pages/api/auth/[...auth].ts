@@ -1,9 +1,8 @@
 import type { APIRoute } from 'astro';
 import { handleAuth } from '../../../lib/server/auth.ts';
 import { FORM_BODY_LIMIT, readCappedBody } from '../../../lib/server/body-limits.ts';
-import { TooManyRequests } from '../../../lib/server/errors.ts';
 import { apiRoute } from '../../../lib/server/http.ts';
-import { checkSigninAllowed, recordSigninFailure } from '../../../lib/server/signin-guard.ts';
+import { recordSigninFailure, signinRefusal } from '../../../lib/server/signin-guard.ts';
 
 const PASSWORD_SIGNIN = /\/callback\/credentials\/?$/;
 const LINK_REQUEST = /\/signin\/nodemailer\/?$/;
@@ -38,11 +37,11 @@ export const ALL: APIRoute = apiRoute(async ({ request, clientAddress, redirect 
 
   const address = clientAddress ?? 'unknown';
   const email = emailIn(body, request.headers.get('content-type') ?? '');
-  try {
-    await checkSigninAllowed(address, email);
-  } catch (err) {
-    if (err instanceof TooManyRequests && (request.headers.get('accept') ?? '').includes('text/html')) return redirect('/signin?error=TooMany', 303);
-    throw err;
+  const refusal = await signinRefusal(address, email);
+  if (refusal) {
+    // the sign-in form gets its page back with the reason; a script gets the 429
+    if ((request.headers.get('accept') ?? '').includes('text/html')) return redirect('/signin?error=TooMany', 303);
+    throw refusal;
   }
   const res = await handleAuth(replay);
   // Only failures count (a family member signing in often is not an attack); every link request

@@ -1,8 +1,7 @@
-import { idParam } from '../../../../lib/server/access.ts';
 import { apiRoute } from '../../../../lib/server/http.ts';
 import { parseInput } from '../../../../lib/server/http.ts';
 import { cropImage } from '../../../../lib/server/review/crops.ts';
-import { itemForRole } from '../../../../lib/server/review/access.ts';
+import { loadItemFor } from '../../../../lib/server/item-access.ts';
 import { cropQuery } from '../../../../lib/review/schemas.ts';
 
 /**
@@ -11,7 +10,7 @@ import { cropQuery } from '../../../../lib/review/schemas.ts';
  * `version`) correction. Anyone in the archive may look.
  */
 export const GET = apiRoute(async ({ locals, params, url }) => {
-  const item = await itemForRole(locals, idParam(params.id, 'That print'), 'viewer');
+  const item = await loadItemFor(locals, params.id, 'viewer');
   const q = parseInput(cropQuery, Object.fromEntries(url.searchParams));
   const { body, version, region } = await cropImage(item, q);
   // originals are write-once and versions never change, so a named image can be kept

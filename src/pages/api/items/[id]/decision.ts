@@ -2,12 +2,12 @@ import type { APIContext } from 'astro';
 import { idParam } from '../../../../lib/server/access.ts';
 import { apiRoute, json, parseInput, readJson } from '../../../../lib/server/http.ts';
 import { decide } from '../../../../lib/server/review/decisions.ts';
-import { itemForRole } from '../../../../lib/server/review/access.ts';
+import { loadItemFor } from '../../../../lib/server/item-access.ts';
 import { decisionInput } from '../../../../lib/review/schemas.ts';
 
 async function record({ locals, params, request }: APIContext) {
   const id = idParam(params.id, 'That print');
-  await itemForRole(locals, id, 'editor');
+  await loadItemFor(locals, id, 'editor');
   const input = parseInput(decisionInput, await readJson(request));
   const { detail, queuedVersion } = await decide(locals, id, input);
   return json({ item: detail, queuedRender: queuedVersion }, queuedVersion ? 202 : 200);

@@ -1,5 +1,4 @@
-import { idParam } from '../../../../lib/server/access.ts';
-import { itemForCaller } from '../../../../lib/server/batches.ts';
+import { loadItemFor } from '../../../../lib/server/item-access.ts';
 import { InvalidInput } from '../../../../lib/server/errors.ts';
 import { disposition, fileResponse, withExtension } from '../../../../lib/server/files.ts';
 import { apiRoute } from '../../../../lib/server/http.ts';
@@ -7,7 +6,6 @@ import { derivedKeys } from '../../../../lib/server/processing.ts';
 import { cropImage } from '../../../../lib/server/review/crops.ts';
 import { cropQuery } from '../../../../lib/review/schemas.ts';
 import { reviewCopySide } from '../../../../lib/restoration/imaging.ts';
-import { Original } from '../../../../../db/index.ts';
 
 /**
  * A screen-sized JPEG of the item (the engine's review copy: 900 to 1280 px on the long side):
@@ -16,13 +14,12 @@ import { Original } from '../../../../../db/index.ts';
  * not stored (the analyse job stores only its thumbnail).
  */
 export const GET = apiRoute(async ({ locals, params, request, url }) => {
-  const item = await itemForCaller(locals, idParam(params.id, 'That item'), 'viewer');
+  const item = await loadItemFor(locals, params.id, 'viewer', { withOriginal: true });
   const of = url.searchParams.get('of') ?? 'corrected';
   if (of !== 'corrected' && of !== 'original') throw new InvalidInput('of must be corrected or original.', { of: 'Unknown.' });
   const name = withExtension(item.originalName, `-${of}-preview.jpg`);
   if ((of === 'original' || !item.previewVersion) && !item.previewKey && item.state === 'ready') {
-    const original = await Original.findByPk(item.originalId, { attributes: ['width', 'height', 'mime'] });
-    const side = reviewCopySide(Math.max(original?.width ?? 0, original?.height ?? 0), original?.mime === 'image/jpeg' ? 'jpeg' : 'png');
+    const side = reviewCopySide(Math.max(item.original.width ?? 0, item.original.height ?? 0), item.original.mime === 'image/jpeg' ? 'jpeg' : 'png');
     const { body } = await cropImage(item, cropQuery.parse({ of: 'original', max: String(side) }));
     return new Response(new Uint8Array(body), {
       status: 200,

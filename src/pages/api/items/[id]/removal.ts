@@ -1,12 +1,11 @@
 import { z } from 'zod';
-import { idParam } from '../../../../lib/server/access.ts';
 import { apiRoute, json, parseInput, readJson } from '../../../../lib/server/http.ts';
 import { itemRemovalSummary, removeItem } from '../../../../lib/server/removal.ts';
-import { itemForRole } from '../../../../lib/server/review/access.ts';
+import { loadItemFor } from '../../../../lib/server/item-access.ts';
 
 /** What removing the print would take with it (decision, captions, hand-made corrections), for the confirmation. */
 export const GET = apiRoute(async ({ locals, params }) => {
-  const item = await itemForRole(locals, idParam(params.id, 'That print'), 'editor');
+  const item = await loadItemFor(locals, params.id, 'editor');
   return json({ id: item.id, seq: item.seq, originalName: item.originalName, ...(await itemRemovalSummary(item)) });
 });
 
@@ -17,7 +16,7 @@ const confirmation = z.object({ confirm: z.literal(true, { errorMap: () => ({ me
  * restored from "Recently removed" for 30 days, after which its original scan is deleted.
  */
 export const POST = apiRoute(async ({ locals, params, request }) => {
-  const item = await itemForRole(locals, idParam(params.id, 'That print'), 'editor');
+  const item = await loadItemFor(locals, params.id, 'editor');
   parseInput(confirmation, await readJson(request));
   return json(await removeItem(item, { userId: locals.user!.id, requestId: locals.requestId }));
 });

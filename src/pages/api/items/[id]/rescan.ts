@@ -1,7 +1,7 @@
 import { FILE_NAME_HEADER } from '../../../../lib/batches/schemas.ts';
 import { ScanRejected } from '../../../../lib/restoration/errors.ts';
 import { idParam } from '../../../../lib/server/access.ts';
-import { printForCaller } from '../../../../lib/server/captions.ts';
+import { loadItemFor } from '../../../../lib/server/item-access.ts';
 import { InvalidInput, TooLarge } from '../../../../lib/server/errors.ts';
 import { apiRoute, errorResponse, json } from '../../../../lib/server/http.ts';
 import { uploadLimits } from '../../../../lib/server/ingest.ts';
@@ -14,7 +14,7 @@ import { attachRescan } from '../../../../lib/server/rescans.ts';
  */
 export const POST = apiRoute(async ({ locals, params, request }) => {
   const id = idParam(params.id, 'That print');
-  await printForCaller(locals, id, 'editor');
+  await loadItemFor(locals, id, 'editor');
   const raw = request.headers.get(FILE_NAME_HEADER);
   if (!raw) throw new InvalidInput(`Name the file in the ${FILE_NAME_HEADER} header (URI-encoded).`, { [FILE_NAME_HEADER]: 'Required.' });
   let name = raw;

@@ -1,6 +1,6 @@
 import { idParam } from '../../../../lib/server/access.ts';
 import { suggestionSchema } from '../../../../lib/archive/metadata.ts';
-import { printForCaller } from '../../../../lib/server/captions.ts';
+import { loadItemFor } from '../../../../lib/server/item-access.ts';
 import { apiRoute, json, parseInput, readJson } from '../../../../lib/server/http.ts';
 import { suggest, suggestionsFor } from '../../../../lib/server/suggestions.ts';
 
@@ -16,7 +16,7 @@ export const GET = apiRoute(async ({ locals, params, url }) => {
 /** Suggests a caption, date, place or people for a print (any member). */
 export const POST = apiRoute(async ({ locals, params, request }) => {
   const id = idParam(params.id, 'That print');
-  await printForCaller(locals, id, 'viewer');
+  await loadItemFor(locals, id, 'viewer');
   const input = parseInput(suggestionSchema, await readJson(request));
   const created = await suggest(locals, id, input);
   return json(created, 201, { location: `/api/suggestions/${created.id}` });

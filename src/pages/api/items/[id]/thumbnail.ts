@@ -1,5 +1,4 @@
-import { idParam } from '../../../../lib/server/access.ts';
-import { itemForCaller } from '../../../../lib/server/batches.ts';
+import { loadItemFor } from '../../../../lib/server/item-access.ts';
 import { InvalidInput } from '../../../../lib/server/errors.ts';
 import { fileResponse, withExtension } from '../../../../lib/server/files.ts';
 import { apiRoute } from '../../../../lib/server/http.ts';
@@ -10,7 +9,7 @@ import { derivedKeys } from '../../../../lib/server/processing.ts';
  * correction) or `?of=original` (the scan as it is, for correcting in the browser).
  */
 export const GET = apiRoute(async ({ locals, params, request, url }) => {
-  const item = await itemForCaller(locals, idParam(params.id, 'That item'), 'viewer');
+  const item = await loadItemFor(locals, params.id, 'viewer');
   const of = url.searchParams.get('of') ?? 'corrected';
   if (of !== 'corrected' && of !== 'original') throw new InvalidInput('of must be corrected or original.', { of: 'Unknown.' });
   const key = of === 'original' || !item.previewVersion ? item.thumbKey : derivedKeys.renderThumbnail(item.id, item.previewVersion);
