@@ -46,6 +46,11 @@ const UNSURE_FROM = 5;
 /** How long typing may pause before the search is sent. */
 const SEARCH_PAUSE_MS = 250;
 const DYE_COLOURS = { cyan: '#3b8ea5', magenta: '#b0487a', yellow: '#c9a227' } as const;
+/** A print's row: a card of wrapped cells on a phone, a table row from sm up. */
+const CARD_ROW = 'flex flex-wrap gap-x-4 gap-y-2 px-3 pb-3 sm:table-row sm:p-0';
+/** A cell after the first: two to a line on a phone, each under its header's word; a table cell from sm up. */
+const CARD_CELL =
+  'basis-[calc(50%-0.5rem)] before:block before:text-[11px] before:uppercase before:tracking-wide before:text-ink-500 before:content-[attr(data-label)] sm:table-cell sm:px-3 sm:py-2 sm:before:content-none';
 
 function hex(rgb: readonly number[]): string {
   return `#${rgb.map((v) => Math.round(Math.min(1, Math.max(0, v)) * 255).toString(16).padStart(2, '0')).join('')}`;
@@ -360,10 +365,12 @@ export default function BatchTable({ batchId, initial, query, canDecide, otherBa
 
       <Pager data={data} loading={loading} onPage={(page) => refine({ page })} first={firstShown} last={lastShown} filtered={filtered} where="top" />
 
-      <div className={`overflow-x-auto rounded-lg border border-paper-200 bg-white ${loading ? 'opacity-60' : ''}`} aria-busy={loading}>
-        <table className="w-full text-sm">
+      {/* On a phone each print is a card of its own (the header's words beside each value), so the
+          list reads down the screen with no box to scroll sideways; from sm up it is a table. */}
+      <div className={`rounded-lg border border-paper-200 bg-white sm:overflow-x-auto ${loading ? 'opacity-60' : ''}`} aria-busy={loading}>
+        <table className="block w-full text-sm sm:table">
           <caption className="sr-only">Prints of this batch</caption>
-          <thead className="bg-paper-50 text-left text-xs uppercase tracking-wide text-ink-500">
+          <thead className="hidden bg-paper-50 text-left text-xs uppercase tracking-wide text-ink-500 sm:table-header-group">
             <tr>
               {canDecide && (
                 <th scope="col" className="w-10 px-3 py-2">
@@ -385,33 +392,33 @@ export default function BatchTable({ batchId, initial, query, canDecide, otherBa
               <th scope="col" className="px-3 py-2">Decision</th>
             </tr>
           </thead>
-          <tbody className="divide-y divide-paper-200">
+          <tbody className="block divide-y divide-paper-200 sm:table-row-group">
             {rows.map((r) => (
-              <tr key={r.id} data-item-row={r.id} data-seq={r.seq} data-state={r.state} data-decision={r.decision ?? 'none'} className={selected.has(r.id) ? 'bg-lamp-500/5' : undefined}>
+              <tr key={r.id} data-item-row={r.id} data-seq={r.seq} data-state={r.state} data-decision={r.decision ?? 'none'} className={`${CARD_ROW} ${selected.has(r.id) ? 'bg-lamp-500/5' : ''}`}>
                 {canDecide && (
-                  <td className="px-3 py-2">
+                  <td className="flex items-center pt-3 sm:table-cell sm:px-3 sm:py-2">
                     <input type="checkbox" aria-label={`Select print ${r.seq}`} checked={selected.has(r.id)} onChange={() => toggle(r)} className="accent-lamp-600" />
                   </td>
                 )}
-                <td className="px-3 py-2">
+                <td className="min-w-0 flex-1 basis-[calc(100%-2.5rem)] pt-3 sm:table-cell sm:px-3 sm:py-2">
                   <a href={r.state === 'ready' || r.state === 'failed' ? `/items/${r.id}` : undefined} className="flex items-center gap-3 text-ink-900 hover:text-lamp-700">
                     {r.hasThumbnail ? (
-                      <img src={`/api/items/${r.id}/thumbnail`} alt="" width={64} height={44} loading="lazy" decoding="async" className="h-11 w-16 rounded border border-paper-200 object-cover" />
+                      <img src={r.thumbnail ?? `/api/items/${r.id}/thumbnail`} alt="" width={64} height={44} loading="lazy" decoding="async" className="h-11 w-16 rounded border border-paper-200 object-cover" />
                     ) : (
                       <span className="h-11 w-16 rounded border border-dashed border-paper-300" aria-hidden="true" />
                     )}
-                    <span>
+                    <span className="min-w-0">
                       <span className="font-medium">{r.seq}</span>
                       <span className="block max-w-[14rem] truncate text-xs text-ink-500">{r.originalName}</span>
                       {r.caption && <span className="block max-w-[18rem] truncate text-xs text-ink-700" data-caption>{r.caption}</span>}
                     </span>
                   </a>
                 </td>
-                <td className="px-3 py-2 text-ink-700">
+                <td className={`${CARD_CELL} text-ink-700`} data-label="State">
                   {STATE_WORDS[r.state as keyof typeof STATE_WORDS] ?? r.state}
                   {r.failureReason && <span className="block max-w-[16rem] text-xs text-danger-700" data-failure-reason>{r.failureReason}</span>}
                 </td>
-                <td className="px-3 py-2">
+                <td className={CARD_CELL} data-label="Fading">
                   {r.fadeGrade ? GRADE_WORDS[r.fadeGrade as FadeGradeName] ?? r.fadeGrade : '–'}
                   {r.rescanAdvised && <span className="block text-xs text-warn-700">negative would help</span>}
                   {r.expectedDeltaE00 !== null && r.expectedDeltaE00 >= UNSURE_FROM && (
@@ -420,7 +427,7 @@ export default function BatchTable({ batchId, initial, query, canDecide, otherBa
                     </span>
                   )}
                 </td>
-                <td className="px-3 py-2">
+                <td className={CARD_CELL} data-label="Paper base">
                   {r.paperBase ? (
                     <span className="flex items-center gap-2">
                       <span className="inline-block h-5 w-5 rounded border border-paper-300" style={{ background: hex(r.paperBase.srgb) }} aria-hidden="true" />
@@ -428,7 +435,7 @@ export default function BatchTable({ batchId, initial, query, canDecide, otherBa
                     </span>
                   ) : '–'}
                 </td>
-                <td className="px-3 py-2">
+                <td className={CARD_CELL} data-label="Dye left">
                   {r.dyes ? (
                     // two elements per dye (a bar drawn as a gradient and its figure): a page of rows stays small
                     <span className="grid w-36 grid-cols-[1fr_2rem] items-center gap-x-1.5 gap-y-0.5" role="img" aria-label={`Dye left: cyan ${Math.round(r.dyes.cyan)} %, magenta ${Math.round(r.dyes.magenta)} %, yellow ${Math.round(r.dyes.yellow)} %`}>
@@ -442,15 +449,15 @@ export default function BatchTable({ batchId, initial, query, canDecide, otherBa
                     </span>
                   ) : '–'}
                 </td>
-                <td className="px-3 py-2 text-ink-700" data-decision-cell>
+                <td className={`${CARD_CELL} text-ink-700`} data-label="Decision" data-decision-cell>
                   {DECISION_WORDS[r.decision ?? 'undecided']}
                   {r.decision === 'rescan' && r.negativeLocation && <span className="block text-xs text-ink-500">negative: {r.negativeLocation}</span>}
                 </td>
               </tr>
             ))}
             {rows.length === 0 && (
-              <tr>
-                <td colSpan={canDecide ? 7 : 6} className="px-3 py-6 text-center text-ink-500" data-no-match>
+              <tr className="block sm:table-row">
+                <td colSpan={canDecide ? 7 : 6} className="block px-3 py-6 text-center text-ink-500 sm:table-cell" data-no-match>
                   {filtered ? 'No prints match this search and these filters.' : 'No prints in this batch yet.'}
                 </td>
               </tr>

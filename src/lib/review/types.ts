@@ -60,6 +60,8 @@ export interface ItemRow {
   negativeLocation: string | null;
   lockVersion: number;
   hasThumbnail: boolean;
+  /** The thumbnail's versioned address (the browser keeps it until the print's copies change); null without one. */
+  thumbnail: string | null;
   /** Why a failed print could not be read, in plain words. */
   failureReason: string | null;
   /** The print's caption, when it has one. */

@@ -1,9 +1,9 @@
 /**
  * Finding prints in a batch of hundreds: search over captions, places, the text on the back, the
- * envelope, file names and people; filters (state, decision, fade grade, what is still missing);
- * an order; one page at a time. One SQL query picks the page's ids and the count, so the batch page
- * and the API send a page, never the whole batch. Also the tallies of review and caption progress
- * and the few numbers per print the batch chart draws.
+ * envelope, file names and people, in any case and with or without accents; filters (state,
+ * decision, fade grade, what is still missing); an order; one page at a time. One SQL query picks
+ * the page's ids and the count, so the batch page and the API send a page, never the whole batch.
+ * Also the tallies of review and caption progress and the few numbers per print the batch chart draws.
  */
 import { QueryTypes } from 'sequelize';
 import { Item, Original, User, db } from '../../../db/index.ts';
@@ -11,6 +11,7 @@ import type { Analysis } from '../restoration/analysis.ts';
 import { API_PAGE_SIZE, listQueryToParams, PAGE_SIZE, searchWords, type ListPage, type ListQuery, type ReviewTally } from '../review/listing.ts';
 import type { ItemRow } from '../review/types.ts';
 import { summariseItem, type ItemSummary } from './batches.ts';
+import { smallCopyUrl } from './files.ts';
 
 /** The CIEDE2000 the engine expects to leave on a print: the batch-pooled figure when there is one. */
 const EXPECTED_SQL = `COALESCE((i.analysis->'pooledResult'->>'expectedDeltaE00')::float8, (i.analysis->>'expectedDeltaE00')::float8)`;
@@ -55,8 +56,10 @@ function whereOf(batchId: string, q: ListQuery): { sql: string; replacements: Re
   searchWords(q.q).forEach((word, n) => {
     const key = `w${n}`;
     replacements[key] = likePattern(word);
-    const fields = ['i.caption', 'i.place', 'i.back_text', 'i.envelope', 'i.original_name', 'i.date_edtf'].map((f) => `${f} ILIKE :${key} ESCAPE '!'`);
-    fields.push(`EXISTS (SELECT 1 FROM item_people ip JOIN people p ON p.id = ip.person_id WHERE ip.item_id = i.id AND p.name ILIKE :${key} ESCAPE '!')`);
+    // compared folded (db/migrations/…-search-ignores-accents.cjs): "Zoe" finds "Zoë", "Muller" finds "Müller"
+    const folded = `search_fold(:${key})`;
+    const fields = ['i.caption', 'i.place', 'i.back_text', 'i.envelope', 'i.original_name', 'i.date_edtf'].map((f) => `search_fold(${f}) LIKE ${folded} ESCAPE '!'`);
+    fields.push(`EXISTS (SELECT 1 FROM item_people ip JOIN people p ON p.id = ip.person_id WHERE ip.item_id = i.id AND search_fold(p.name) LIKE ${folded} ESCAPE '!')`);
     // a bare number also finds the print of that number
     if (/^\d{1,9}$/.test(word)) {
       replacements[`n${n}`] = Number(word);
@@ -148,6 +151,7 @@ export async function itemRows(items: Item[]): Promise<ItemRow[]> {
       negativeLocation: it.negativeLocation ?? null,
       lockVersion: it.lockVersion,
       hasThumbnail: Boolean(it.thumbKey),
+      thumbnail: it.thumbKey ? smallCopyUrl(it, 'thumbnail') : null,
       failureReason: it.state === 'failed' ? (it.failureReason ?? null) : null,
       caption: it.caption?.trim() || null,
     };
