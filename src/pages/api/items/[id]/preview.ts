@@ -5,7 +5,7 @@ import { apiRoute } from '../../../../lib/server/http.ts';
 import { derivedKeys } from '../../../../lib/server/processing.ts';
 import { cropImage } from '../../../../lib/server/review/crops.ts';
 import { cropQuery } from '../../../../lib/review/schemas.ts';
-import { reviewCopySide } from '../../../../lib/restoration/imaging.ts';
+import { reviewCopySide } from '../../../../lib/restoration/scan-sizes.ts';
 
 /**
  * A screen-sized JPEG of the item (the engine's review copy: 900 to 1280 px on the long side):
