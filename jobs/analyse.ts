@@ -23,9 +23,9 @@ import { queue } from '../src/lib/server/queue.ts';
 import { storage } from '../src/lib/server/storage.ts';
 import { removeStaleTemporaries } from '../src/lib/server/stale-files.ts';
 import { config } from '../src/lib/server/config.ts';
-import { eachAtMost, oneAtATime } from './each-at-most.ts';
+import { eachAtMost } from './each-at-most.ts';
 import { enginePool } from './engine-pool.ts';
-import { requeueInterrupted, WORKER_ID } from './presence.ts';
+import { PRESENCE_PREFIX, requeueInterrupted, WORKER_ID } from './presence.ts';
 import type { JobHandler } from './registry.ts';
 
 /** How a print whose scan cannot be decoded cleanly (corrupt or cut short) is marked, before the reason. */
@@ -43,13 +43,18 @@ export async function settleIfDone(batchId: string): Promise<void> {
 }
 
 async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<void> {
-  // Claimed in one statement: only a queued item, or one whose earlier run was cut short.
+  // Claimed in one statement: a queued item, or one held by a worker that is gone (its presence
+  // connection closed, jobs/presence.ts). An item a live worker holds is left to it, so a scan is
+  // analysed once however many jobs name it; analysis_runs counts the claims.
   const [claimed] = await db().query<{ id: string; batch_id: string; original_id: string; storage_key: string }>(
-    `UPDATE items i SET state = 'analysing', failure_reason = NULL, analysing_by = :worker, updated_at = now()
+    `UPDATE items i SET state = 'analysing', failure_reason = NULL, analysing_by = :worker, analysis_runs = i.analysis_runs + 1, updated_at = now()
        FROM originals o
-      WHERE i.id = :id AND o.id = i.original_id AND i.state IN ('queued', 'analysing')
+      WHERE i.id = :id AND o.id = i.original_id AND i.deleted_at IS NULL
+        AND (i.state = 'queued'
+             OR (i.state = 'analysing' AND i.analysing_by IS DISTINCT FROM :worker
+                 AND (i.analysing_by IS NULL OR NOT EXISTS (SELECT 1 FROM pg_stat_activity a WHERE a.application_name = :prefix || i.analysing_by))))
     RETURNING i.id, i.batch_id, i.original_id, o.storage_key`,
-    { replacements: { id: job.data.itemId, worker: WORKER_ID }, type: QueryTypes.SELECT },
+    { replacements: { id: job.data.itemId, worker: WORKER_ID, prefix: PRESENCE_PREFIX }, type: QueryTypes.SELECT },
   );
   if (!claimed) return;
   const item = { id: claimed.id, batchId: claimed.batch_id, originalId: claimed.original_id };
@@ -117,44 +122,37 @@ async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<voi
       await settleIfDone(item.batchId);
       throw err;
     } else {
+      // Handed back for the job's retry (pg-boss, with backoff), which claims it as any queued item.
+      await Item.update({ state: 'queued', analysingBy: null }, { where: { id: item.id, state: 'analysing', analysingBy: WORKER_ID } });
       throw err;
     }
   }
   await settleIfDone(item.batchId);
 }
 
-/** pg-boss only hands on a crashed worker's job once its lease is found expired; look often. */
-const SWEEP_SECONDS = 10;
-/** An item left queued this long without a job (the process died between commit and send) gets one. */
+/** An item left queued this long with no job sent since (its process stopped between commit and send) gets one. */
 const STRANDED_AFTER = "interval '2 minutes'";
 
-async function sweep(): Promise<void> {
-  const boss = (await queue()) as PgBoss & { expire?: () => Promise<void> };
-  await boss.expire?.();
+/**
+ * The analyse queue's sweep (jobs/worker.ts runs it every few seconds): stale temporary files
+ * removed, analyses a stopped worker left half done queued again at once, and items whose job
+ * was never sent given one. What was sent is read from our own rows (items.analyse_sent_at), so
+ * an item queued again after its job was sent (a caption typed meanwhile) may get a second job,
+ * which finds it taken and does nothing.
+ */
+export async function sweepAnalyses(): Promise<void> {
   await removeStaleTemporaries();
-  // analyses a worker that died left half done: queued again at once, not after their lease
   await requeueInterrupted();
-  const stranded = await db().query<{ id: string; pixels: number | null; batch_id: string; state: string }>(
-    `SELECT i.id, i.batch_id, i.state, (o.width::bigint * o.height) AS pixels
+  const stranded = await db().query<{ id: string; pixels: number | null }>(
+    `SELECT i.id, (o.width::bigint * o.height) AS pixels
        FROM items i JOIN originals o ON o.id = i.original_id
-      WHERE i.state IN ('queued', 'analysing') AND i.updated_at < now() - ${STRANDED_AFTER}
-        AND NOT EXISTS (SELECT 1 FROM pgboss.job j WHERE j.name = :queue AND j.data->>'itemId' = i.id::text AND j.state < 'completed')
+      WHERE i.state = 'queued' AND i.deleted_at IS NULL AND i.updated_at < now() - ${STRANDED_AFTER}
+        AND (i.analyse_sent_at IS NULL OR i.analyse_sent_at < i.updated_at)
       LIMIT 200`,
-    { replacements: { queue: ANALYSE_QUEUE.name }, type: QueryTypes.SELECT },
+    { type: QueryTypes.SELECT },
   );
-  for (const s of stranded) {
-    if (s.state === 'queued') {
-      await Item.update({ failureReason: null }, { where: { id: s.id } });
-      await enqueueAnalyse(s.id, s.pixels === null ? null : Number(s.pixels));
-    } else {
-      // Its job has used up its attempts while workers were being stopped mid-job.
-      await fail(s.id, 'Processing was interrupted too many times. Use "Try again".');
-      await settleIfDone(s.batch_id);
-    }
-  }
+  for (const s of stranded) await enqueueAnalyse(s.id, s.pixels === null ? null : Number(s.pixels));
 }
-
-setInterval(oneAtATime('analyse: sweep', sweep), SWEEP_SECONDS * 1000).unref();
 
 /**
  * Two images at a time on two cores (WORKER_CONCURRENCY), each on an engine thread of its own:
@@ -172,12 +170,12 @@ const engine = enginePool();
 const FETCH = AT_ONCE + 1;
 const LOOPS = 2;
 
-export const analyseHandler: JobHandler = {
+export const analyseHandler: JobHandler<'analyse'> = {
   queue: ANALYSE_QUEUE.name,
   concurrency: () => LOOPS,
   // includeMetadata makes pg-boss hand over retryCount and retryLimit with each job.
   workOptions: { includeMetadata: true, batchSize: FETCH },
-  handle: (async (jobs: PgBoss.JobWithMetadata<AnalyseJob>[]) => {
+  handle: async (jobs) => {
     const boss = await queue();
     await eachAtMost(jobs, FETCH, async (job) => {
       try {
@@ -187,5 +185,5 @@ export const analyseHandler: JobHandler = {
         await boss.fail(ANALYSE_QUEUE.name, job.id, { message: String((err as Error)?.message ?? err) });
       }
     });
-  }) as PgBoss.WorkHandler<any>,
+  },
 };

@@ -102,9 +102,9 @@ async function settle(job: PgBoss.Job<BatchSettledJob>): Promise<void> {
   if (putOff > 0) await enqueueBatchSettled(job.data.batchId, putOff);
 }
 
-export const batchSettledHandler: JobHandler = {
+export const batchSettledHandler: JobHandler<'batch-settled'> = {
   queue: BATCH_SETTLED_QUEUE.name,
-  handle: async (jobs: PgBoss.Job<BatchSettledJob>[]) => {
+  handle: async (jobs) => {
     for (const job of jobs) await settle(job);
   },
 };

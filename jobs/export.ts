@@ -44,15 +44,16 @@ async function handle(jobs: PgBoss.Job<ExportJob>[]): Promise<void> {
   for (const job of jobs) await runExportProcess(job.data.exportId);
 }
 
-// Exports left running by a killed worker are picked up again by whichever worker looks next.
-const every = Math.min(60_000, Math.max(1000, config().exportStallMs / 2));
-setInterval(() => {
-  resumeStalledExports()
-    .then((n) => n && console.log(`[export] resumed ${n} export(s) left by a stopped worker`))
-    .catch((err) => console.error('[export] looking for stalled exports failed:', err));
-}, every).unref();
+/** How often the worker looks for exports a stopped worker left running (jobs/worker.ts). */
+export const RESUME_EXPORTS_EVERY_MS = Math.min(60_000, Math.max(1000, config().exportStallMs / 2));
 
-export const exportHandler: JobHandler = {
+/** Exports left running by a killed worker are picked up again by whichever worker looks next. */
+export async function resumeExports(): Promise<void> {
+  const n = await resumeStalledExports();
+  if (n) console.log(`[export] resumed ${n} export(s) left by a stopped worker`);
+}
+
+export const exportHandler: JobHandler<'export'> = {
   queue: EXPORT_QUEUE.name,
   handle,
   concurrency: () => 1,

@@ -3,14 +3,12 @@
  * ago is deleted for good, rows and files (src/lib/server/removal.ts). pg-boss's schedule sends
  * one job per hour however many workers run; a purge is idempotent, so a retried one is harmless.
  */
-import { DEAD_LETTER_QUEUE, declareQueue, queue } from '../src/lib/server/queue.ts';
+import { queue } from '../src/lib/server/queue.ts';
+import { PURGE_REMOVED_QUEUE } from '../src/lib/server/queues.ts';
 import { purgeRemoved } from '../src/lib/server/removal.ts';
 import type { JobHandler } from './registry.ts';
 
-export const PURGE_REMOVED_QUEUE = declareQueue({
-  name: 'purge-removed',
-  options: { retryLimit: 3, retryDelay: 60, retryBackoff: true, deadLetter: DEAD_LETTER_QUEUE },
-});
+export { PURGE_REMOVED_QUEUE };
 
 /** Asks pg-boss to send a purge job at minute 17 of every hour (one schedule per queue, kept in the database). */
 export async function schedulePurge(): Promise<void> {
@@ -18,7 +16,7 @@ export async function schedulePurge(): Promise<void> {
   await boss.schedule(PURGE_REMOVED_QUEUE.name, '17 * * * *');
 }
 
-export const purgeRemovedHandler: JobHandler = {
+export const purgeRemovedHandler: JobHandler<'purge-removed'> = {
   queue: PURGE_REMOVED_QUEUE.name,
   handle: async (jobs) => {
     for (const _ of jobs) {

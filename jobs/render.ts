@@ -6,10 +6,9 @@
  * more than RENDER_CATCH_UP_SECONDS is rendered even while a long sitting goes on). It keeps a
  * few jobs waiting at a time, so a new sitting never finds hundreds of renders ahead of it.
  */
-import type PgBoss from 'pg-boss';
 import { QueryTypes } from 'sequelize';
 import { db } from '../db/index.ts';
-import { RENDER_CATCH_UP_SECONDS, RENDER_QUEUE, RENDER_QUIET_SECONDS, requestRender, type RenderJob } from '../src/lib/server/processing.ts';
+import { RENDER_CATCH_UP_SECONDS, RENDER_QUEUE, RENDER_QUIET_SECONDS, requestRender } from '../src/lib/server/processing.ts';
 import { renderItemVersion } from '../src/lib/server/renders.ts';
 import { config } from '../src/lib/server/config.ts';
 import { queue } from '../src/lib/server/queue.ts';
@@ -26,38 +25,34 @@ const WAITING_TARGET = 8;
  */
 const LOST_AFTER = "interval '30 seconds'";
 const LOST_EVERY_MS = 15_000;
-const FEED_EVERY_MS = 1000;
 let lostLookedAt = 0;
 
 /** Sends render jobs for prints that lack a render of their current version, when the machine is free for it. */
 export async function feedRenders(): Promise<number> {
-  const [state] = await db().query<{ busy: boolean; waiting: string }>(
-    `SELECT (EXISTS (SELECT 1 FROM items WHERE state IN ('queued', 'analysing'))
-             OR EXISTS (SELECT 1 FROM items WHERE created_at > now() - make_interval(secs => :quiet))) AS busy,
-            (SELECT count(*) FROM pgboss.job WHERE name = :queue AND state IN ('created', 'retry')) AS waiting`,
-    { replacements: { quiet: RENDER_QUIET_SECONDS, queue: RENDER_QUEUE.name }, type: QueryTypes.SELECT },
+  const [{ busy }] = await db().query<{ busy: boolean }>(
+    `SELECT EXISTS (SELECT 1 FROM items WHERE state IN ('queued', 'analysing'))
+            OR EXISTS (SELECT 1 FROM items WHERE created_at > now() - make_interval(secs => :quiet)) AS busy`,
+    { replacements: { quiet: RENDER_QUIET_SECONDS }, type: QueryTypes.SELECT },
   );
-  const room = (state.busy ? 2 : WAITING_TARGET) - Number(state.waiting);
+  // jobs waiting to start (created, or failed and waiting for their retry)
+  const waiting = await (await queue()).getQueueSize(RENDER_QUEUE.name, { before: 'active' });
+  const room = (busy ? 2 : WAITING_TARGET) - waiting;
   if (room <= 0) return 0;
   if (Date.now() - lostLookedAt > LOST_EVERY_MS) {
     lostLookedAt = Date.now();
-    // a job that exists in any state is pg-boss's to retry or to have ended (a scan that no longer
-    // decodes ends its job without a render): only a version whose job was never sent goes again
-    const sentFor = (table: string) =>
-      `EXISTS (SELECT 1 FROM pgboss.${table} j WHERE j.name = :queue AND j.data->>'itemId' = i.id::text
-                 AND j.data->>'version' = i.render_queued_version::text AND j.created_on >= i.render_queued_at)`;
+    // A job once sent is pg-boss's to retry or to have ended (a scan that no longer decodes ends its
+    // job without a render): only a version marked as asked for whose job was never sent goes again.
     await db().query(
       `UPDATE items i SET render_queued_version = NULL
         WHERE i.render_queued_version > COALESCE(i.render_version, 0) AND i.render_queued_at < now() - ${LOST_AFTER}
-          AND NOT ${sentFor('job')} AND NOT ${sentFor('archive')}`,
-      { replacements: { queue: RENDER_QUEUE.name } },
+          AND (i.render_sent_at IS NULL OR i.render_sent_at < i.render_queued_at)`,
     );
   }
   const wanted = await db().query<{ id: string; current_version: number }>(
     `SELECT id, current_version FROM items
       WHERE state = 'ready' AND current_version IS NOT NULL AND (render_version IS NULL OR render_version < current_version) AND deleted_at IS NULL
         AND (render_queued_version IS NULL OR render_queued_version < current_version)
-        ${state.busy ? 'AND updated_at < now() - make_interval(secs => :catchUp)' : ''}
+        ${busy ? 'AND updated_at < now() - make_interval(secs => :catchUp)' : ''}
       ORDER BY updated_at LIMIT :room`,
     { replacements: { room, catchUp: RENDER_CATCH_UP_SECONDS }, type: QueryTypes.SELECT },
   );
@@ -69,23 +64,21 @@ export async function feedRenders(): Promise<number> {
 
 const feedSoon = oneAtATime('render: feeding the queue', feedRenders);
 
-let feeder: NodeJS.Timeout | undefined;
-/** Starts the feeder of this worker (jobs/worker.ts). */
-export function startRenderFeeder(): void {
-  feeder ??= setInterval(feedSoon, FEED_EVERY_MS);
-  feeder.unref();
-}
+/** How often the worker feeds the render queue (jobs/worker.ts). */
+export const FEED_EVERY_MS = 1000;
+/** One feeding at a time, for the worker's timer and for a handler that has just finished renders. */
+export { feedSoon as feedRendersSoon };
 
 const engine = enginePool();
 const renderer = engine.renderCorrected.bind(engine);
 const AT_ONCE = config().workerConcurrency;
 
-export const renderHandler: JobHandler = {
+export const renderHandler: JobHandler<'render'> = {
   queue: RENDER_QUEUE.name,
   // two polling loops of a few jobs each, sharing the engine threads (as jobs/analyse.ts)
   concurrency: () => 2,
   workOptions: { batchSize: AT_ONCE + 1 },
-  handle: (async (jobs: PgBoss.Job<RenderJob>[]) => {
+  handle: async (jobs) => {
     const boss = await queue();
     await eachAtMost(jobs, AT_ONCE + 1, async (job) => {
       try {
@@ -96,5 +89,5 @@ export const renderHandler: JobHandler = {
       }
     });
     feedSoon();
-  }) as PgBoss.WorkHandler<any>,
+  },
 };

@@ -3,24 +3,29 @@
  * `npm run worker` runs another alone (several may run at once; pg-boss hands each job to one).
  */
 import type PgBoss from 'pg-boss';
-import sharp from 'sharp';
 import { closeDb } from '../db/index.ts';
 import { openDatabase } from '../src/lib/server/database.ts';
+import { imagingForLongRuns } from '../src/lib/restoration/imaging.ts';
 import { config } from '../src/lib/server/config.ts';
 import { queue, stopQueue } from '../src/lib/server/queue.ts';
 import { HANDLERS } from './registry.ts';
 import { registerLoop } from './loops.ts';
-import { startRenderFeeder } from './render.ts';
+import { FEED_EVERY_MS, feedRendersSoon } from './render.ts';
 import { oneAtATime } from './each-at-most.ts';
 import { reconcileOriginals } from '../src/lib/server/reconcile.ts';
 import { schedulePurge } from './purge-removed.ts';
 import { requeueInterrupted, startPresence, stopPresence } from './presence.ts';
+import { sweepAnalyses } from './analyse.ts';
+import { RESUME_EXPORTS_EVERY_MS, resumeExports } from './export.ts';
 
-sharp.cache(false);
+// the worker's own libvips work (a render an export asks for first); the engine threads set theirs
+imagingForLongRuns();
 
 openDatabase();
 
 const RECONCILE_MINUTES = 10;
+/** pg-boss hands on a killed worker's job only once its lease is found expired; the worker's own sweep looks often. */
+const ANALYSE_SWEEP_MS = 10_000;
 
 /**
  * pg-boss 10 completes and fails jobs without awaiting the call (its manager's onFetch), so one that
@@ -50,7 +55,7 @@ const boss = await queue();
 async function loop(h: (typeof HANDLERS)[number]): Promise<void> {
   let id = '';
   const handle = async (jobs: PgBoss.Job[]) => {
-    await h.handle(jobs);
+    await h.handle(jobs as Parameters<typeof h.handle>[0]);
     if (jobs.length > 0 && id) boss.notifyWorker(id);
   };
   id = await boss.work(h.queue, { batchSize: 1, pollingIntervalSeconds: 0.5, ...(h.workOptions ?? {}) }, handle as PgBoss.WorkHandler<unknown>);
@@ -59,15 +64,25 @@ async function loop(h: (typeof HANDLERS)[number]): Promise<void> {
 for (const h of HANDLERS) {
   for (let i = 0; i < (h.concurrency?.(c) ?? 1); i++) await loop(h);
 }
-startRenderFeeder();
 // Analyses a worker cut short (killed, or the machine stopped) are queued again now, not when their
 // lease runs out; batch-settled measures its quiet period from this start too (jobs/batch-settled.ts).
 await requeueInterrupted();
+
+/** Every timer of the worker, here and nowhere else: each call skipped while the previous one runs. */
+function every(label: string, ms: number, fn: () => Promise<unknown>, now = false): void {
+  const run = oneAtATime(label, fn);
+  if (now) run();
+  setInterval(run, ms).unref();
+}
+// full-size renders, once the analyses leave the machine free (jobs/render.ts)
+setInterval(feedRendersSoon, FEED_EVERY_MS).unref();
+// analyses cut short, stranded items, stale temporary files (jobs/analyse.ts)
+every('analyse: sweep', ANALYSE_SWEEP_MS, sweepAnalyses);
+// exports a stopped worker left running (jobs/export.ts)
+every('export: resuming stalled exports', RESUME_EXPORTS_EVERY_MS, resumeExports);
 // Originals an upload cut short by a database outage left without a row: listed and logged, at
 // start and every few minutes (src/lib/server/reconcile.ts).
-const reconcile = oneAtATime('reconcile storage', () => reconcileOriginals().then(() => undefined));
-void reconcile();
-setInterval(reconcile, RECONCILE_MINUTES * 60_000).unref();
+every('reconcile storage', RECONCILE_MINUTES * 60_000, reconcileOriginals, true);
 await schedulePurge();
 console.log(`worker ${process.pid}: working on ${HANDLERS.map((h) => h.queue).join(', ') || 'no queues yet'}`);
 

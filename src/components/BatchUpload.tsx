@@ -1,5 +1,6 @@
 import { useCallback, useEffect, useMemo, useReducer, useRef, useState } from 'react';
 import { useDropzone, type FileRejection } from 'react-dropzone';
+import { watchBatch } from './live-batch.ts';
 import { describeLimits, FILE_NAME_HEADER, ITEM_STATE_LABELS, type ItemState, type UploadLimits, type UploadOutcome } from '../lib/batches/schemas.ts';
 
 /** One item of the batch as the server knows it. */
@@ -154,18 +155,20 @@ export default function BatchUpload({ batchId, batchName, limits, items: initial
     }
   }, [entries, upload]);
 
-  // Processing states from the server, while anything is still queued or being analysed.
-  const pending = [...serverItems.values()].some((i) => i.state === 'queued' || i.state === 'analysing');
-  useEffect(() => {
-    if (!pending) return;
-    const timer = setInterval(async () => {
-      const res = await fetch(`/api/batches/${batchId}/items?brief=1`, { headers: { accept: 'application/json' } });
-      if (!res.ok) return;
-      const data = await res.json();
-      setServerItems(new Map((data.items as ServerItem[]).map((i) => [i.id, i])));
-    }, 2000);
-    return () => clearInterval(timer);
-  }, [pending, batchId]);
+  // Processing states pushed by the server (live-batch.ts): every item at each connection, then each change.
+  useEffect(
+    () =>
+      watchBatch(batchId, {
+        items: (items, gone, full) =>
+          setServerItems((m) => {
+            const next = full ? new Map<string, ServerItem>() : new Map(m);
+            for (const id of gone) next.delete(id);
+            for (const i of items) next.set(i.id, i);
+            return next;
+          }),
+      }),
+    [batchId],
+  );
 
   const onDrop = useCallback(
     (accepted: File[], refused: FileRejection[]) => {

@@ -4,6 +4,7 @@
  */
 import { useState } from 'react';
 import { api, ApiError } from './api-client.ts';
+import { watchBatch } from './live-batch.ts';
 
 interface Props {
   itemId: string;
@@ -30,20 +31,24 @@ export default function FailedPrint({ itemId, batchId, seq }: Props) {
     }
   }
 
-  /** Follows the print until it is ready (then opens it for review) or has failed again (then says why). */
-  async function waitForOutcome() {
-    for (;;) {
-      await new Promise((r) => setTimeout(r, 1000));
-      const r = await api<{ item: { state: string; failureReason: string | null } }>(`/api/items/${itemId}`);
-      if (r.item.state === 'ready') {
-        window.location.reload();
-        return;
-      }
-      if (r.item.state === 'failed') {
-        setMessage({ kind: 'error', text: `It could not be read this time either: ${r.item.failureReason ?? 'no reason given'}` });
-        return;
-      }
-    }
+  /** Follows the print (pushed by the server) until it is ready (then opens it for review) or has failed again (then says why). */
+  function waitForOutcome(): Promise<void> {
+    return new Promise((resolve) => {
+      const stop = watchBatch(batchId, {
+        items: (items) => {
+          const print = items.find((i) => i.id === itemId);
+          if (print?.state === 'ready') {
+            stop();
+            window.location.reload();
+            resolve();
+          } else if (print?.state === 'failed') {
+            stop();
+            setMessage({ kind: 'error', text: `It could not be read this time either: ${print.failureReason ?? 'no reason given'}` });
+            resolve();
+          }
+        },
+      });
+    });
   }
 
   async function remove() {

@@ -1,44 +1,15 @@
 /**
- * The processing queues of a batch, declared once as data, and the calls that put work on them.
- * The web server, the ingest command and the worker all import this module, so each process
- * knows the same queue behaviour (retries with backoff, the dead-letter queue, expiry).
+ * The calls that put a batch's processing on its queues (the queues themselves are declared in
+ * queues.ts). What was sent is recorded on the item (analyse_sent_at, render_sent_at), so the
+ * worker's sweeps find work whose sending was cut short from our own tables, never pg-boss's.
  */
 import { QueryTypes } from 'sequelize';
 import { db } from '../../../db/index.ts';
 import { ANALYSIS_SIDE } from '../restoration/imaging.ts';
-import { DEAD_LETTER_QUEUE, declareQueue, queueFor as boss } from './queue.ts';
+import { ANALYSE_QUEUE, BATCH_SETTLED_QUEUE, RENDER_QUEUE, type AnalyseJob, type BatchSettledJob, type RenderJob } from './queues.ts';
+import { sendJob } from './queue.ts';
 
-/** Analyse one item: decode once, measure, propose, and make the small copies the review shows. */
-export const ANALYSE_QUEUE = declareQueue({
-  name: 'analyse',
-  options: { retryLimit: 4, retryDelay: 5, retryBackoff: true, expireInSeconds: 900, retentionDays: 7, deadLetter: DEAD_LETTER_QUEUE },
-});
-
-/**
- * Render one correction version of an item at full resolution: the corrected JPEG that downloads
- * and exports use. Fed by jobs/render.ts once no scan waits for analysis, and at once for an operator's change.
- */
-export const RENDER_QUEUE = declareQueue({
-  name: 'render',
-  options: { retryLimit: 4, retryDelay: 5, retryBackoff: true, expireInSeconds: 900, retentionDays: 7, deadLetter: DEAD_LETTER_QUEUE },
-});
-
-/** A batch's analyses are all in: pool the uncertain prints, then tell whoever made the batch. */
-export const BATCH_SETTLED_QUEUE = declareQueue({
-  name: 'batch-settled',
-  options: { retryLimit: 6, retryDelay: 10, retryBackoff: true, expireInSeconds: 600, retentionDays: 7, deadLetter: DEAD_LETTER_QUEUE },
-});
-
-export interface AnalyseJob {
-  itemId: string;
-}
-export interface RenderJob {
-  itemId: string;
-  version: number;
-}
-export interface BatchSettledJob {
-  batchId: string;
-}
+export { ANALYSE_QUEUE, BATCH_SETTLED_QUEUE, RENDER_QUEUE, type AnalyseJob, type BatchSettledJob, type RenderJob };
 
 /**
  * A lease long enough for the slowest honest decode of a scan this size (about 2 s per
@@ -50,10 +21,10 @@ export function leaseSeconds(pixels: number | null | undefined): number {
   return Math.min(1800, Math.max(30, Math.ceil(30 + 2 * mp)));
 }
 
-/** Queues the analysis of an item. */
+/** Queues the analysis of an item, and records when it was sent (jobs/analyse.ts sends again an item left queued without one). */
 export async function enqueueAnalyse(itemId: string, pixels?: number | null): Promise<void> {
-  const b = await boss(ANALYSE_QUEUE);
-  await b.send(ANALYSE_QUEUE.name, { itemId } satisfies AnalyseJob, { expireInSeconds: leaseSeconds(pixels) });
+  await sendJob(ANALYSE_QUEUE.name, { itemId }, { expireInSeconds: leaseSeconds(pixels) });
+  await db().query('UPDATE items SET analyse_sent_at = clock_timestamp() WHERE id = :itemId', { replacements: { itemId } });
 }
 
 /**
@@ -83,10 +54,14 @@ export async function requestRender(itemId: string, version: number): Promise<bo
   return true;
 }
 
-/** Queues a full-resolution render of one correction version of an item (use {@link requestRender}). */
+/**
+ * Queues a full-resolution render of one correction version of an item (use {@link requestRender}),
+ * and records that it was sent: a version marked as asked for but never sent (its process stopped in
+ * between) is asked for again by jobs/render.ts.
+ */
 export async function enqueueRender(itemId: string, version: number, pixels?: number | null): Promise<void> {
-  const b = await boss(RENDER_QUEUE);
-  await b.send(RENDER_QUEUE.name, { itemId, version } satisfies RenderJob, { expireInSeconds: leaseSeconds(pixels) });
+  await sendJob(RENDER_QUEUE.name, { itemId, version }, { expireInSeconds: leaseSeconds(pixels) });
+  await db().query('UPDATE items SET render_sent_at = clock_timestamp() WHERE id = :itemId AND render_queued_version = :version', { replacements: { itemId, version } });
 }
 
 /**
@@ -94,8 +69,7 @@ export async function enqueueRender(itemId: string, version: number, pixels?: nu
  * ask; the handler locks the batch row, so the work is done once however many jobs arrive.
  */
 export async function enqueueBatchSettled(batchId: string, afterSeconds = 0): Promise<void> {
-  const b = await boss(BATCH_SETTLED_QUEUE);
-  await b.send(BATCH_SETTLED_QUEUE.name, { batchId } satisfies BatchSettledJob, afterSeconds > 0 ? { startAfter: Math.ceil(afterSeconds) } : {});
+  await sendJob(BATCH_SETTLED_QUEUE.name, { batchId }, afterSeconds > 0 ? { startAfter: Math.ceil(afterSeconds) } : {});
 }
 
 /**

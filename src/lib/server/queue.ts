@@ -1,56 +1,33 @@
 import PgBoss from 'pg-boss';
 import { config } from './config.ts';
+import { QUEUES, type JobData, type QueueName } from './queues.ts';
 
 /**
- * Queue behaviour declared once, as data: names, retries with backoff, and where a job goes
- * when it has failed for good. The worker and the web server both read this list.
+ * How often pg-boss looks for jobs whose lease ran out (their worker was killed) and hands them
+ * on. One process does it per interval, however many run (pg-boss keeps the time in its table).
  */
-export interface QueueSpec {
-  name: string;
-  options: Omit<PgBoss.Queue, 'name'>;
-}
-
-export const DEAD_LETTER_QUEUE = 'dead-letter';
-
-/** Every queue; handlers live in jobs/<name>.ts and are registered by jobs/worker.ts. */
-export const QUEUES: QueueSpec[] = [
-  { name: DEAD_LETTER_QUEUE, options: { retentionDays: 30 } },
-];
-
-/** Adds a queue spec (used by feature modules at import time, before the queue starts). */
-export function declareQueue(spec: QueueSpec): QueueSpec {
-  if (!QUEUES.some((q) => q.name === spec.name)) QUEUES.push(spec);
-  return spec;
-}
+const MAINTENANCE_SECONDS = 10;
 
 let started: Promise<PgBoss> | undefined;
 
-/** The process-wide pg-boss instance, started, with every declared queue created. */
+/** The process-wide pg-boss instance, started, with every queue of the contract (queues.ts) created. */
 export function queue(): Promise<PgBoss> {
   started ??= (async () => {
-    const boss = new PgBoss({ connectionString: config().databaseUrl, max: 4, application_name: 'drawerlight' });
+    const boss = new PgBoss({ connectionString: config().databaseUrl, max: 4, application_name: 'drawerlight', maintenanceIntervalSeconds: MAINTENANCE_SECONDS });
     boss.on('error', (err) => console.error('[queue]', err));
     await boss.start();
-    for (const q of QUEUES) await boss.createQueue(q.name, { name: q.name, ...q.options }).catch(ignoreExists);
+    // the dead-letter queue first: pg-boss refuses a queue whose dead-letter queue does not exist yet
+    const queues = Object.values(QUEUES).sort((a, b) => Number(Boolean(a.options.deadLetter)) - Number(Boolean(b.options.deadLetter)));
+    for (const q of queues) await boss.createQueue(q.name, { name: q.name, ...q.options }).catch(ignoreExists);
     return boss;
   })();
   return started;
 }
 
-const created = new Set<string>();
-
-/**
- * The started queue, with `spec`'s queue made sure of once per process: pg-boss 10 refuses to send
- * to a queue it has not created, and a process may have started the queue before the module that
- * declares `spec` was imported.
- */
-export async function queueFor(spec: QueueSpec): Promise<PgBoss> {
+/** Sends a job of `name` with its typed data; returns the job's id (null when pg-boss refused a duplicate). */
+export async function sendJob<N extends QueueName>(name: N, data: JobData[N], options: PgBoss.SendOptions = {}): Promise<string | null> {
   const boss = await queue();
-  if (!created.has(spec.name)) {
-    await boss.createQueue(spec.name, { name: spec.name, ...spec.options }).catch(ignoreExists);
-    created.add(spec.name);
-  }
-  return boss;
+  return boss.send(name, data as object, options);
 }
 
 function ignoreExists(err: unknown) {

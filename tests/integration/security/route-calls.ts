@@ -123,6 +123,7 @@ export const ROUTE_CALLS: Record<string, RouteCall> = {
   },
   'GET /api/batches/[id]': { status: 200, check: (r, c) => expect(r.body.id).toBe(c.r.batch) },
   'GET /api/batches/[id]/events': { status: 200, check: (r) => expect(r.headers.get('content-type')).toContain('text/event-stream') },
+  'GET /api/batches/events': { status: 200, check: (r) => expect(r.headers.get('content-type')).toContain('text/event-stream') },
   'POST /api/batches/[id]/files': {
     request: async (c) => ({ body: await c.r.freshScan(), headers: { 'content-type': 'application/octet-stream', 'x-file-name': `walk-${c.principal}.jpg` } }),
     status: 201,

@@ -50,6 +50,7 @@ export const ROUTE_RULES: Record<string, RouteRule> = {
   'POST /api/batches': { scope: 'current', role: 'editor' },
   'GET /api/batches/[id]': { scope: 'archive', role: 'viewer', params: { id: 'batch' } },
   'GET /api/batches/[id]/events': { scope: 'archive', role: 'viewer', params: { id: 'batch' }, stream: true },
+  'GET /api/batches/events': { scope: 'current', role: 'viewer', stream: true },
   'POST /api/batches/[id]/files': { scope: 'archive', role: 'editor', params: { id: 'batch' } },
   'GET /api/batches/[id]/items': { scope: 'archive', role: 'viewer', params: { id: 'batch' } },
   'POST /api/batches/[id]/decisions': { scope: 'archive', role: 'editor', params: { id: 'batch' } },

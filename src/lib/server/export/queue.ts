@@ -2,17 +2,11 @@
 import { Op } from 'sequelize';
 import { ArchiveExport } from '../../../../db/index.ts';
 import { config } from '../config.ts';
-import { DEAD_LETTER_QUEUE, declareQueue, queue } from '../queue.ts';
+import { sendJob } from '../queue.ts';
+import { EXPORT_QUEUE, type ExportJob } from '../queues.ts';
 
-/** The export queue: one job per export, retried a little, given an hour for a large archive. */
-export const EXPORT_QUEUE = declareQueue({
-  name: 'export',
-  options: { retryLimit: 2, retryDelay: 30, retryBackoff: true, expireInSeconds: 3600, retentionDays: 7, deadLetter: DEAD_LETTER_QUEUE },
-});
-
-export interface ExportJob {
-  exportId: string;
-}
+/** The export queue and its job's data (declared with every queue in queues.ts). */
+export { EXPORT_QUEUE, type ExportJob };
 
 /**
  * Sends exports whose worker died back to the queue: state `running` with no progress saved for
@@ -26,7 +20,7 @@ export async function resumeStalledExports(now = Date.now()): Promise<number> {
     // Only one sweeping worker wins the row: the update matches the time it saw.
     const [n] = await ArchiveExport.update({ state: 'queued' }, { where: { id: e.id, state: 'running', updatedAt: e.updatedAt } });
     if (!n) continue;
-    await (await queue()).send(EXPORT_QUEUE.name, { exportId: e.id } satisfies ExportJob);
+    await sendJob(EXPORT_QUEUE.name, { exportId: e.id });
     resumed++;
   }
   return resumed;

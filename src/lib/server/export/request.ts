@@ -4,8 +4,7 @@ import type { ExportRequest, ExportStatus } from '../../archive/exports.ts';
 import { requireCurrentArchive } from '../access.ts';
 import { recordAudit } from '../audit.ts';
 import { Conflict } from '../errors.ts';
-import { queue } from '../queue.ts';
-import { EXPORT_QUEUE, type ExportJob } from './queue.ts';
+import { sendJob } from '../queue.ts';
 import { resolveSelection } from './selection.ts';
 import { exportStatus } from './status.ts';
 
@@ -23,10 +22,6 @@ export async function requestExport(locals: App.Locals, input: ExportRequest): P
     progressTotal: itemIds.length,
   });
   await recordAudit({ archiveId: m.archiveId, actorId: locals.user!.id, action: 'export.request', subjectType: 'export', subjectId: e.id, details: { selection: input.selection.kind, items: itemIds.length, includeOriginals: input.includeOriginals }, requestId: locals.requestId });
-  const boss = await queue();
-  await boss.createQueue(EXPORT_QUEUE.name, { name: EXPORT_QUEUE.name, ...EXPORT_QUEUE.options }).catch((err: Error) => {
-    if (!/already exists/i.test(String(err?.message))) throw err;
-  });
-  await boss.send(EXPORT_QUEUE.name, { exportId: e.id } satisfies ExportJob);
+  await sendJob('export', { exportId: e.id });
   return exportStatus(e);
 }

@@ -1,60 +1,25 @@
 import { idParam } from '../../../../lib/server/access.ts';
-import { batchForCaller, stateCounts } from '../../../../lib/server/batches.ts';
+import { batchForCaller, listItemStates, stateCounts } from '../../../../lib/server/batches.ts';
+import { eventStream } from '../../../../lib/server/event-stream.ts';
 import { apiRoute } from '../../../../lib/server/http.ts';
-
-/** How often the counts are looked at, and how long one stream lasts before the browser reconnects. */
-const POLL_MS = 1500;
-const STREAM_MS = 5 * 60 * 1000;
+import { watchBatch, type LiveEvent } from '../../../../lib/server/item-events.ts';
 
 /**
- * Server-sent events with a batch's counts per state: one `counts` event at once and another
- * whenever they change. EventSource reconnects by itself after the stream ends.
+ * Server-sent events of one batch (viewers and up): `counts` at once and after every change of its
+ * items; with `?items=1` also `items`, the items that changed (and `gone`, those removed or moved
+ * out), with every item of the batch at once. `stale` says changes may have been missed (read the
+ * state again). Pushed from the database's item announcements (item-events.ts), never polled.
  */
-export const GET = apiRoute(async ({ locals, params, request }) => {
+export const GET = apiRoute(async ({ locals, params, request, url }) => {
   const batch = await batchForCaller(locals, idParam(params.id, 'That batch'), 'viewer');
-  const encoder = new TextEncoder();
-  let timer: ReturnType<typeof setTimeout> | undefined;
-  let closed = false;
-  const started = Date.now();
-  const stream = new ReadableStream<Uint8Array>({
-    start(controller) {
-      let last = '';
-      const close = () => {
-        if (closed) return;
-        closed = true;
-        clearTimeout(timer);
-        try {
-          controller.close();
-        } catch {
-          /* already closed by the client */
-        }
-      };
-      request.signal.addEventListener('abort', close);
-      const tick = async () => {
-        if (closed) return;
-        try {
-          const counts = (await stateCounts([batch.id])).get(batch.id)!;
-          const data = JSON.stringify({ batchId: batch.id, counts });
-          if (data !== last) {
-            last = data;
-            controller.enqueue(encoder.encode(`event: counts\ndata: ${data}\n\n`));
-          } else {
-            controller.enqueue(encoder.encode(': still here\n\n'));
-          }
-        } catch {
-          close();
-          return;
-        }
-        if (Date.now() - started > STREAM_MS) return close();
-        timer = setTimeout(tick, POLL_MS);
-      };
-      controller.enqueue(encoder.encode('retry: 3000\n\n'));
-      void tick();
+  const items = url.searchParams.get('items') === '1';
+  return eventStream(
+    request,
+    (send) => watchBatch(batch.id, { items }, send),
+    async () => {
+      const first: LiveEvent[] = [{ kind: 'counts', batchId: batch.id, counts: (await stateCounts([batch.id])).get(batch.id)! }];
+      if (items) first.push({ kind: 'items', batchId: batch.id, items: await listItemStates(batch.id), gone: [], full: true });
+      return first;
     },
-    cancel() {
-      closed = true;
-      clearTimeout(timer);
-    },
-  });
-  return new Response(stream, { headers: { 'content-type': 'text/event-stream; charset=utf-8', 'cache-control': 'no-store', connection: 'keep-alive' } });
+  );
 });
