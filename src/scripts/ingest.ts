@@ -18,7 +18,6 @@ import { Archive, Batch, Item, Membership, User, closeDb } from '../../db/index.
 import { openDatabase } from '../lib/server/database.ts';
 import { roleAtLeast } from '../lib/auth/roles.ts';
 import { batchCreateSchema } from '../lib/batches/schemas.ts';
-import { ScanRejected } from '../lib/restoration/errors.ts';
 import { createBatch } from '../lib/server/batches.ts';
 import { AppError } from '../lib/server/errors.ts';
 import { ingestScan } from '../lib/server/ingest.ts';
@@ -140,7 +139,7 @@ async function attachRescanFromFile(opts: { item: string; as?: string; file: str
     console.log(`attached   ${basename(opts.file)} to print #${item.seq} (item ${r.itemId}); the print scan is kept; the worker analyses the rescan now.`);
     return 0;
   } catch (err) {
-    if (err instanceof ScanRejected || err instanceof AppError) {
+    if (err instanceof AppError) {
       console.log(`refused    ${basename(opts.file)}: ${err.message}`);
       return 1;
     }
@@ -194,7 +193,7 @@ async function main(): Promise<number> {
         console.log(`already in ${r.existing ? `"${r.existing.batchName}" as #${r.existing.seq} ${r.existing.originalName}` : 'the archive'}: ${name}`);
       }
     } catch (err) {
-      if (err instanceof ScanRejected || err instanceof AppError) {
+      if (err instanceof AppError) {
         tally.refused++;
         console.log(`refused    ${name}: ${err.message}`);
       } else throw err;

@@ -84,7 +84,7 @@ export function apiRoute(handler: (ctx: APIContext) => Promise<Response> | Respo
  * What a page loads, or the refusal it shows instead: a typed error (404 for another archive's
  * print, 403 for a lower role…) becomes the page's status and its message; anything else is thrown.
  */
-export async function loadForPage<T>(response: { status: number }, load: () => Promise<T>): Promise<{ data: T; problem: null } | { data: null; problem: AppError }> {
+export async function loadForPage<T>(response: { status?: number }, load: () => Promise<T>): Promise<{ data: T; problem: null } | { data: null; problem: AppError }> {
   try {
     return { data: await load(), problem: null };
   } catch (err) {

@@ -15,6 +15,7 @@ import { probeWithHead, ScanRejected, type ScanProbe } from '../restoration/imag
 import type { UploadLimits, UploadOutcome } from '../batches/schemas.ts';
 import { recordAudit } from './audit.ts';
 import { config } from './config.ts';
+import { RefusedScan } from './errors.ts';
 import { enqueueAnalyse } from './processing.ts';
 import { storage } from './storage.ts';
 
@@ -156,7 +157,7 @@ export interface StoredScan {
  * Streams one scan into the archive's originals, once: staged and hashed, judged by its bytes
  * and header, then linked write-once under its SHA-256 (or matched to the original that
  * already holds the same bytes). Makes no item; {@link ingestScan} and the rescan flow build on it.
- * @throws {ScanRejected} for a file that is not a scan we can take (type, size, pixels, damaged header)
+ * @throws {RefusedScan} for a file that is not a scan we can take (type, size, pixels, damaged header), naming it
  * @throws {TooLarge} when the stream passes the byte limit
  */
 export async function storeScanOriginal(input: Omit<IngestInput, 'batchId'>): Promise<StoredScan> {
@@ -192,6 +193,8 @@ export async function storeScanOriginal(input: Omit<IngestInput, 'batchId'>): Pr
     const found = await Original.findOne({ where: { archiveId: input.archiveId, sha256 } });
     if (!found) throw new Error(`the original ${sha256} was neither stored nor found`);
     return { original: found, sha256, probe, created: false };
+  } catch (err) {
+    throw err instanceof ScanRejected ? new RefusedScan(err, input.name) : err;
   } finally {
     await store.remove(stageKey).catch(() => undefined);
   }
@@ -201,7 +204,7 @@ export async function storeScanOriginal(input: Omit<IngestInput, 'batchId'>): Pr
  * Takes one scan into a batch. Returns `added` with the new item (analysis queued), or
  * `duplicate` with the item that already holds the same bytes in this archive: nothing is
  * stored twice and no second item is made.
- * @throws {ScanRejected} for a file that is not a scan we can take (type, size, pixels, damaged header)
+ * @throws {RefusedScan} for a file that is not a scan we can take (type, size, pixels, damaged header), naming it
  * @throws {TooLarge} when the stream passes the byte limit
  */
 export async function ingestScan(input: IngestInput): Promise<UploadOutcome> {

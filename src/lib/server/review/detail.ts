@@ -2,6 +2,7 @@
 import { Op } from 'sequelize';
 import { Batch, Item, Original } from '../../../../db/index.ts';
 import type { Analysis } from '../../restoration/analysis.ts';
+import type { Decision } from '../../review/index.ts';
 import type { ItemDetail } from '../../review/types.ts';
 import { parseParams, versionsOf } from './history.ts';
 import { nameOf } from './names.ts';
@@ -53,7 +54,7 @@ export async function itemDetail(item: Item): Promise<ItemDetail> {
 }
 
 /** Every print of a batch in scan order, as the workbench walks them (position, what is decided, what to load ahead). */
-export async function reviewQueue(batchId: string): Promise<{ id: string; seq: number; decision: string | null; state: string }[]> {
+export async function reviewQueue(batchId: string): Promise<{ id: string; seq: number; decision: Decision | null; state: string }[]> {
   const rows = await Item.findAll({ where: { batchId }, order: [['seq', 'ASC']], attributes: ['id', 'seq', 'decision', 'state'] });
   return rows.map((r) => ({ id: r.id, seq: r.seq, decision: r.decision ?? null, state: r.state }));
 }

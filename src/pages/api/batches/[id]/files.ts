@@ -1,9 +1,8 @@
 import { FILE_NAME_HEADER } from '../../../../lib/batches/schemas.ts';
-import { ScanRejected } from '../../../../lib/restoration/errors.ts';
 import { idParam } from '../../../../lib/server/access.ts';
 import { batchForCaller, noteUploadActivity } from '../../../../lib/server/batches.ts';
 import { InvalidInput, TooLarge } from '../../../../lib/server/errors.ts';
-import { apiRoute, errorResponse, json } from '../../../../lib/server/http.ts';
+import { apiRoute, json } from '../../../../lib/server/http.ts';
 import { ingestScan, uploadLimits } from '../../../../lib/server/ingest.ts';
 import { drainingBody } from '../../../../lib/server/request-body.ts';
 
@@ -69,8 +68,8 @@ async function receiveScan(batch: { id: string; archiveId: string }, locals: App
     if (result.outcome === 'duplicate') return json(result, 200);
     return json(result, 201, { location: `/api/items/${result.item.id}` });
   } catch (err) {
+    // the client hears the refusal only once its body is read
     await upload.drained();
-    if (err instanceof ScanRejected) return errorResponse(err.status, err.code, err.message, { file: name });
     throw err;
   }
 }

@@ -1,9 +1,8 @@
 import { FILE_NAME_HEADER } from '../../../../lib/batches/schemas.ts';
-import { ScanRejected } from '../../../../lib/restoration/errors.ts';
 import { idParam } from '../../../../lib/server/access.ts';
 import { loadItemFor } from '../../../../lib/server/item-access.ts';
 import { InvalidInput, TooLarge } from '../../../../lib/server/errors.ts';
-import { apiRoute, errorResponse, json } from '../../../../lib/server/http.ts';
+import { apiRoute, json } from '../../../../lib/server/http.ts';
 import { uploadLimits } from '../../../../lib/server/ingest.ts';
 import { attachRescan } from '../../../../lib/server/rescans.ts';
 
@@ -27,11 +26,6 @@ export const POST = apiRoute(async ({ locals, params, request }) => {
   const limits = uploadLimits();
   if (Number.isFinite(declared) && declared > limits.maxBytes) throw new TooLarge(`The file is ${Math.round(declared / 1048576)} MB; the limit is ${Math.round(limits.maxBytes / 1048576)} MB.`);
   if (!request.body) throw new InvalidInput('The request has no file in its body.');
-  try {
-    const result = await attachRescan(locals, { itemId: id, name, body: request.body as unknown as AsyncIterable<Uint8Array> });
-    return json(result, 202, { location: `/api/items/${id}` });
-  } catch (err) {
-    if (err instanceof ScanRejected) return errorResponse(err.status, err.code, err.message, { file: name });
-    throw err;
-  }
+  const result = await attachRescan(locals, { itemId: id, name, body: request.body as unknown as AsyncIterable<Uint8Array> });
+  return json(result, 202, { location: `/api/items/${id}` });
 });
