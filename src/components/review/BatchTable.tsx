@@ -8,6 +8,7 @@
  * after each, the page and the batch's counts are read again.
  */
 import { useEffect, useRef, useState } from 'react';
+import { watchBatch } from '../live-batch.ts';
 import type { ItemRow } from '../../lib/review/types.ts';
 import { LIST_SORTS, listQueryToParams, MISSING, TALLY_EVENT, type ListPage, type ListQuery, type ListSort, type Missing, type ReviewTally } from '../../lib/review/listing.ts';
 import {
@@ -110,6 +111,21 @@ export default function BatchTable({ batchId, initial, query, canDecide, otherBa
     const t = setTimeout(() => setFilters((x) => ({ ...x, q: searchText.trim(), page: 1 })), SEARCH_PAUSE_MS);
     return () => clearTimeout(t);
   }, [searchText]);
+
+  // A print of this page whose processing moves on (analysed, failed) is shown as it is now: the
+  // batch's pushed events (live-batch.ts) name it, and the page is read again.
+  const shown = useRef({ rows, filters, load });
+  shown.current = { rows, filters, load };
+  useEffect(
+    () =>
+      watchBatch(batchId, {
+        items: (items) => {
+          const now = shown.current;
+          if (items.some((i) => now.rows.some((r) => r.id === i.id && r.state !== i.state))) void now.load(now.filters);
+        },
+      }),
+    [batchId],
+  );
 
   const refine = (change: Partial<Filters>) => setFilters((x) => ({ ...x, ...change, page: change.page ?? 1 }));
   const toggleMissing = (m: Missing) => refine({ missing: filters.missing.includes(m) ? filters.missing.filter((x) => x !== m) : [...filters.missing, m] });
