@@ -7,7 +7,7 @@ import { parse as parseEdtf } from 'edtf';
 import { Batch, Correction, Item, Original, User, db } from '../../../db/index.ts';
 import type { Role } from '../auth/roles.ts';
 import { emptyCounts, ITEM_STATES, type BatchCreate, type ItemState, type StateCounts } from '../batches/schemas.ts';
-import { requireArchiveRole, requireUser } from './access.ts';
+import { idParam, requireArchiveRole, requireUser } from './access.ts';
 import { recordAudit } from './audit.ts';
 import { Conflict, InvalidInput, NotFound } from './errors.ts';
 
@@ -109,13 +109,13 @@ export async function listBatches(archiveId: string): Promise<BatchSummary[]> {
 }
 
 /**
- * The batch `batchId` if the caller holds at least `role` in its archive: 401 signed out,
- * 404 for another archive's batch (or none), 403 for a lower role.
+ * The batch `batchId` (a route's raw parameter is fine) if the caller holds at least `role` in its
+ * archive: 401 signed out, 404 for no such batch or another archive's, 403 for a lower role.
  */
-export async function batchForCaller(locals: App.Locals, batchId: string, role: Role): Promise<Batch> {
+export async function batchForCaller(locals: App.Locals, batchId: string | undefined, role: Role): Promise<Batch> {
   requireUser(locals);
-  const batch = await Batch.findByPk(batchId);
-  if (!batch || !locals.memberships.some((m) => m.archiveId === batch.archiveId)) throw new NotFound('That batch');
+  const batch = await Batch.findByPk(idParam(batchId, 'That batch'));
+  if (!batch) throw new NotFound('That batch');
   requireArchiveRole(locals, batch.archiveId, role, 'That batch');
   return batch;
 }
@@ -186,18 +186,6 @@ export async function listItems(batchId: string, state?: ItemState): Promise<Ite
     order: [['seq', 'ASC']],
   });
   return items.map((i) => summariseItem(i as Item & { original: Original }));
-}
-
-/**
- * The item `itemId` (with its original) if the caller holds at least `role` in its archive,
- * answered like {@link batchForCaller}.
- */
-export async function itemForCaller(locals: App.Locals, itemId: string, role: Role): Promise<Item & { original: Original }> {
-  requireUser(locals);
-  const item = (await Item.findByPk(itemId, { include: [{ model: Original, as: 'original' }] })) as (Item & { original: Original }) | null;
-  if (!item || !locals.memberships.some((m) => m.archiveId === item.archiveId)) throw new NotFound('That item');
-  requireArchiveRole(locals, item.archiveId, role, 'That item');
-  return item;
 }
 
 /** The few fields the upload island follows, for every item of a batch (cheap enough to poll). */

@@ -1,7 +1,6 @@
 /** The batch review page's batch, if the caller may see it, and the batches its prints may move to. */
 import { Batch } from '../../../../db/index.ts';
 import { roleAtLeast } from '../../auth/roles.ts';
-import { idParam } from '../access.ts';
 import { batchForCaller } from '../batches.ts';
 
 export interface BatchOverview {
@@ -12,7 +11,7 @@ export interface BatchOverview {
 
 /** A batch as the batch review page shows it; another archive's batch is 404. Its prints come a page at a time (review-list.ts). */
 export async function batchOverview(locals: App.Locals, batchId: string | undefined): Promise<BatchOverview> {
-  const batch = await batchForCaller(locals, idParam(batchId, 'That batch'), 'viewer');
+  const batch = await batchForCaller(locals, batchId, 'viewer');
   const role = locals.memberships.find((m) => m.archiveId === batch.archiveId)?.role;
   if (!roleAtLeast(role, 'editor')) return { batch, moveTargets: [] };
   const others = await Batch.findAll({ where: { archiveId: batch.archiveId }, attributes: ['id', 'name'], order: [['createdAt', 'DESC']] });

@@ -3,7 +3,7 @@
  * of a batch, and the undo of such a bulk decision.
  */
 import { randomUUID } from 'node:crypto';
-import { Op } from 'sequelize';
+import { Op, type Transaction } from 'sequelize';
 import { AuditEvent, Correction, Item, db } from '../../../../db/index.ts';
 import { STATE_WORDS, type BulkDecisionInput, type Decision, type DecisionInput } from '../../review/index.ts';
 import type { ItemDetail } from '../../review/types.ts';
@@ -28,6 +28,11 @@ function decisionValues(input: { decision: Decision | 'undecided' } & Pick<Decis
     negativeLocation: rescan ? input.negativeLocation || null : null,
     rescanNote: rescan ? input.rescanNote || null : null,
   };
+}
+
+/** The audit entry of a decision on one print: what was decided, and what it replaced (for an undo). */
+function auditDecision(locals: App.Locals, it: Item, details: Record<string, unknown>, transaction: Transaction): Promise<void> {
+  return recordAudit({ archiveId: it.archiveId, actorId: locals.user!.id, action: 'item.decide', subjectType: 'item', subjectId: it.id, details, requestId: locals.requestId }, transaction);
 }
 
 /**
@@ -59,18 +64,7 @@ export async function decide(locals: App.Locals, itemId: string, input: Decision
     const values = decisionValues(input, userId);
     const previous = { decision: it.decision, decidedBy: it.decidedBy };
     await it.update({ ...values, currentVersion: version, lockVersion: it.lockVersion + 1 }, { transaction });
-    await recordAudit(
-      {
-        archiveId: it.archiveId,
-        actorId: userId,
-        action: 'item.decide',
-        subjectType: 'item',
-        subjectId: it.id,
-        details: { decision: input.decision, version, previous, negativeAvailable: values.negativeAvailable, negativeLocation: values.negativeLocation, rescanNote: values.rescanNote },
-        requestId: locals.requestId,
-      },
-      transaction,
-    );
+    await auditDecision(locals, it, { decision: input.decision, version, previous, negativeAvailable: values.negativeAvailable, negativeLocation: values.negativeLocation, rescanNote: values.rescanNote }, transaction);
     return it;
   });
   if (queuedVersion) await queueRender(item.id, queuedVersion);
@@ -127,16 +121,10 @@ export async function bulkDecide(locals: App.Locals, batchId: string, input: Bul
       const values = decisionValues(input, userId);
       const previous = decisionState(it);
       await it.update({ ...values, lockVersion: it.lockVersion + 1 }, { transaction });
-      await recordAudit(
-        {
-          archiveId: it.archiveId,
-          actorId: userId,
-          action: 'item.decide',
-          subjectType: 'item',
-          subjectId: it.id,
-          details: { decision: values.decision, bulk: true, bulkId, lockVersionAfter: it.lockVersion, version: it.currentVersion, previous, negativeAvailable: values.negativeAvailable, negativeLocation: values.negativeLocation },
-          requestId: locals.requestId,
-        },
+      await auditDecision(
+        locals,
+        it,
+        { decision: values.decision, bulk: true, bulkId, lockVersionAfter: it.lockVersion, version: it.currentVersion, previous, negativeAvailable: values.negativeAvailable, negativeLocation: values.negativeLocation },
         transaction,
       );
       result.decided.push({ id: it.id, lockVersion: it.lockVersion, decision: values.decision });

@@ -1,4 +1,3 @@
-import { idParam } from '../../../../lib/server/access.ts';
 import { batchForCaller, listItemStates, stateCounts } from '../../../../lib/server/batches.ts';
 import { eventStream } from '../../../../lib/server/event-stream.ts';
 import { apiRoute } from '../../../../lib/server/http.ts';
@@ -11,7 +10,7 @@ import { watchBatch, type LiveEvent } from '../../../../lib/server/item-events.t
  * state again). Pushed from the database's item announcements (item-events.ts), never polled.
  */
 export const GET = apiRoute(async ({ locals, params, request, url }) => {
-  const batch = await batchForCaller(locals, idParam(params.id, 'That batch'), 'viewer');
+  const batch = await batchForCaller(locals, params.id, 'viewer');
   const items = url.searchParams.get('items') === '1';
   return eventStream(
     request,

@@ -1,5 +1,4 @@
 import { FILE_NAME_HEADER } from '../../../../lib/batches/schemas.ts';
-import { idParam } from '../../../../lib/server/access.ts';
 import { batchForCaller, noteUploadActivity } from '../../../../lib/server/batches.ts';
 import { InvalidInput, TooLarge } from '../../../../lib/server/errors.ts';
 import { apiRoute, json } from '../../../../lib/server/http.ts';
@@ -43,7 +42,7 @@ const NOTE_EVERY_MS = 5000;
  * 201 with the new item (its analysis queued); 200 when the same bytes are already in the archive.
  */
 export const POST = apiRoute(async ({ locals, params, request }) => {
-  const batch = await batchForCaller(locals, idParam(params.id, 'That batch'), 'editor');
+  const batch = await batchForCaller(locals, params.id, 'editor');
   await noteUploadActivity(batch.id);
   try {
     return await receiveScan(batch, locals, request);

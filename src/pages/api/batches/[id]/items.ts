@@ -1,4 +1,3 @@
-import { idParam } from '../../../../lib/server/access.ts';
 import { batchForCaller, listItemStates } from '../../../../lib/server/batches.ts';
 import { apiRoute, json, parseInput } from '../../../../lib/server/http.ts';
 import { listItemsPage, listRowsPage, matchingIds } from '../../../../lib/server/review-list.ts';
@@ -14,7 +13,7 @@ import { listQuery, searchParamsToObject } from '../../../../lib/review/listing.
  * name, state and failure reason (what the upload page polls).
  */
 export const GET = apiRoute(async ({ locals, params, url }) => {
-  const batch = await batchForCaller(locals, idParam(params.id, 'That batch'), 'viewer');
+  const batch = await batchForCaller(locals, params.id, 'viewer');
   if (url.searchParams.has('brief')) return json({ batchId: batch.id, items: await listItemStates(batch.id) });
   const q = parseInput(listQuery, searchParamsToObject(url.searchParams));
   if (q.view === 'ids') return json({ batchId: batch.id, items: await matchingIds(batch.id, q) });
