@@ -1,4 +1,5 @@
 import { useEffect, useState } from 'react';
+import { watchArchiveBatches, watchBatch } from './live-batch.ts';
 import { emptyCounts, isSettled, ITEM_STATE_LABELS, ITEM_STATES, type StateCounts } from '../lib/batches/schemas.ts';
 
 interface Props {
@@ -11,45 +12,21 @@ interface Props {
 
 const BAR_CLASS: Record<string, string> = { ready: 'bg-lamp-600', failed: 'bg-danger-700', analysing: 'bg-lamp-500/50', queued: 'bg-paper-300' };
 
-/** Live counts per state of one batch, with a progress bar; updates itself from the batch's event stream. */
+/** Live counts per state of one batch, with a progress bar; updated by the server's pushed events (live-batch.ts). */
 export default function BatchProgress({ batchId, initial, compact = false }: Props) {
   const [counts, setCounts] = useState<StateCounts>(initial ?? emptyCounts());
   const [live, setLive] = useState(false);
 
   useEffect(() => {
-    if (compact) {
-      // Lists show many batches at once: a browser allows only six open connections per host, so
-      // list entries ask now and then with short requests, and stop once their batch has settled.
-      if (initial && isSettled(initial)) return;
-      let stopped = false;
-      let timer: ReturnType<typeof setTimeout> | undefined;
-      const poll = async () => {
-        try {
-          const res = await fetch(`/api/batches/${batchId}`, { headers: { accept: 'application/json' } });
-          if (res.ok) {
-            const next = (await res.json()).counts as StateCounts;
-            setCounts(next);
-            setLive(true);
-            if (isSettled(next)) return;
-          }
-        } catch {
-          setLive(false);
-        }
-        if (!stopped) timer = setTimeout(poll, 3000);
-      };
-      timer = setTimeout(poll, 1000);
-      return () => {
-        stopped = true;
-        clearTimeout(timer);
-      };
-    }
-    const source = new EventSource(`/api/batches/${batchId}/events`);
-    source.addEventListener('counts', (e) => {
-      setCounts(JSON.parse((e as MessageEvent).data).counts);
-      setLive(true);
-    });
-    source.onerror = () => setLive(false);
-    return () => source.close();
+    const handlers = {
+      counts: (id: string, next: StateCounts) => {
+        if (id === batchId) setCounts(next);
+      },
+      live: setLive,
+    };
+    // Lists show many batches at once: one stream for the whole list (a browser allows only six
+    // open connections per host); a batch's own page follows that batch.
+    return compact ? watchArchiveBatches(handlers) : watchBatch(batchId, handlers);
   }, [batchId, compact]);
 
   const done = counts.ready + counts.failed;
