@@ -12,6 +12,8 @@
  *    Floor: the same page of a batch with no prints, in the same run.
  *  - scroll_frame_p95_ms / scroll_frame_max_ms: requestAnimationFrame intervals while the wheel
  *    scrolls the page from top to bottom. Floor: the Guide (text, no islands) scrolled the same way.
+ *  - revisit_scroll_frame_p95_ms, revisit_thumbnail_requests: the page opened again and scrolled, and
+ *    how many of its thumbnails the browser asked the server for again (none when they are kept).
  *  - page_turn_ms (Next to the new rows on screen), search_ms (typing a word to the matches on
  *    screen), items_api_kb / items_api_ms (one default page of the API), search_api_ms.
  *    Floor: GET /api/me, the cheapest signed-in JSON answer.
@@ -262,6 +264,21 @@ async function measure(archive: TestArchive, browser: BrowserContext): Promise<v
   await page.waitForLoadState('networkidle');
   await page.evaluate(() => window.scrollTo(0, 0));
   const scrollAgain = await scrollDown();
+  // a later visit (the page opened again, as after reviewing a print): every thumbnail of the page
+  // has been seen; the ones the browser still asks the server about (a revalidation each) are counted
+  const network = await page.context().newCDPSession(page);
+  await network.send('Network.enable');
+  const thumbnailRequests = new Set<string>();
+  const servedFromCache = new Set<string>();
+  network.on('Network.requestWillBeSent', (e: { requestId: string; request: { url: string } }) => {
+    if (e.request.url.includes('/thumbnail')) thumbnailRequests.add(e.requestId);
+  });
+  network.on('Network.requestServedFromCache', (e: { requestId: string }) => servedFromCache.add(e.requestId));
+  await loadPage(page, `${BASE}/batches/${batchId}`);
+  const revisit = await scrollDown();
+  await page.waitForLoadState('networkidle');
+  await network.detach();
+  const thumbnailsAsked = [...thumbnailRequests].filter((id) => !servedFromCache.has(id)).length;
 
   // page turn: Next to the new rows on screen
   const turns: number[] = [];
@@ -301,6 +318,8 @@ async function measure(archive: TestArchive, browser: BrowserContext): Promise<v
   console.log(`scroll_frame_p95_ms: ${fmt(p95(scroll))} (floor ${fmt(p95(guideScroll))}, the Guide scrolled the same way; ${scroll.length} frames)`);
   console.log(`scroll_frame_max_ms: ${fmt(Math.max(...scroll))}`);
   console.log(`scroll_again_frame_p95_ms: ${fmt(p95(scrollAgain))} (the same scroll with every thumbnail loaded; max ${fmt(Math.max(...scrollAgain))})`);
+  console.log(`revisit_scroll_frame_p95_ms: ${fmt(p95(revisit))} (the page opened again and scrolled; max ${fmt(Math.max(...revisit))})`);
+  console.log(`revisit_thumbnail_requests: ${thumbnailsAsked} (thumbnails of that visit the browser asked the server for, of ${Math.min(PRINTS, 50)} rows)`);
   console.log(`page_turn_ms: ${fmt(median(turns))} (Next to new rows on screen, median of ${turns.length})`);
   console.log(`search_ms: ${fmt(median(searches))} (typed word to matches on screen, incl. the 250 ms typing pause; median of ${searches.length})`);
   console.log(`items_api_ms: ${fmt(items.ms)} (floor ${fmt(me.ms)}, GET /api/me)`);

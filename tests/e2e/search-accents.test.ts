@@ -2,7 +2,8 @@
  * Searching a batch ignores accents, as a relative typing on any keyboard expects: "Zoe" finds the
  * print captioned "Zoë", "Muller" the one with Müller in it, "Cuil" the place Cúil Aodha, "Sean" the
  * back of the print that says "Seán", and the other way round ("Zoë" finds a plain "Zoe"). Typed
- * into the batch page's search box in Chromium. Captions, names and places are invented for the test.
+ * into the batch page's search box in Chromium; the people list the caption form offers folds the
+ * same way. Captions, names and places are invented for the test.
  */
 import type { BrowserContext, Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -86,5 +87,13 @@ describe('searching without accents', () => {
     const r = await editor.get(`/api/batches/${batchId}/items?q=${encodeURIComponent('zoe')}&view=rows`);
     expect(r.status).toBe(200);
     expect((r.body.items as { seq: number }[]).map((i) => i.seq)).toEqual([1, 4]);
+  });
+
+  it('offers a known person in the caption form when the name is typed without its accent', async () => {
+    const r = await editor.get(`/api/people?q=${encodeURIComponent('anna mul')}`);
+    expect(r.status).toBe(200);
+    expect((r.body.people as { name: string }[]).map((p) => p.name)).toEqual(['Anna Müller']);
+    const byWord = await editor.get(`/api/people?q=${encodeURIComponent('muller')}`);
+    expect((byWord.body.people as { name: string }[]).map((p) => p.name)).toEqual(['Anna Müller']);
   });
 });

@@ -10,6 +10,7 @@ import type { ItemMetadata, MetadataChange } from '../archive/metadata.ts';
 import { recordAudit } from './audit.ts';
 import { batchForCaller } from './batches.ts';
 import { InvalidInput } from './errors.ts';
+import { smallCopyUrl } from './files.ts';
 import { loadItemFor } from './item-access.ts';
 
 /** Names of the people tagged on each of `itemIds`, in caption order. */
@@ -114,7 +115,7 @@ export async function metadataOf(items: Item[]): Promise<ItemMetadata[]> {
       backText: i.backText ?? null,
       envelope: i.envelope ?? null,
       source: { kind: b?.sourceKind ?? 'other', label: b?.sourceLabel ?? '', batchName: b?.name ?? '' },
-      thumbnailUrl: `/api/items/${i.id}/thumbnail`,
+      thumbnailUrl: smallCopyUrl(i, 'thumbnail'),
       pendingSuggestions: pendingOf.get(i.id) ?? 0,
       lockVersion: i.lockVersion,
     };
