@@ -9,7 +9,7 @@ import type PgBoss from 'pg-boss';
 import { Op, QueryTypes } from 'sequelize';
 import { Correction, Item, db } from '../db/index.ts';
 import { ScanRejected } from '../src/lib/restoration/imaging.ts';
-import { uploadLimits } from '../src/lib/server/ingest.ts';
+import { uploadLimits } from '../src/lib/server/body-limits.ts';
 import {
   ANALYSE_QUEUE,
   derivedKeys,

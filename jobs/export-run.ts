@@ -1,16 +1,16 @@
 /**
  * One export in a process of its own, started by the export queue's handler (jobs/export.ts) and
  * ended when the export is done: the memory a large export touches (2-4 GB of JPEGs and zip going
- * through sharp, archiver and the final check) goes back to the system with the process, instead
+ * through the renders, archiver and the final check) goes back to the system with the process, instead
  * of staying with the long-running worker. Exit status 0 when the export is ready (or was already).
  *   node --import tsx jobs/export-run.ts <export id>
  */
-import sharp from 'sharp';
 import { closeDb } from '../db/index.ts';
+import { imagingForLongRuns } from '../src/lib/restoration/imaging.ts';
 import { openDatabase } from '../src/lib/server/database.ts';
 import { runExport } from '../src/lib/server/export/job.ts';
 
-sharp.cache(false);
+imagingForLongRuns();
 openDatabase();
 const exportId = process.argv[2];
 // The worker that started this process holds the other end of its stdin: when the worker dies,

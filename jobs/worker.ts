@@ -18,7 +18,7 @@ import { requeueInterrupted, startPresence, stopPresence } from './presence.ts';
 import { sweepAnalyses } from './analyse.ts';
 import { RESUME_EXPORTS_EVERY_MS, resumeExports } from './export.ts';
 
-// the worker's own libvips work (a render an export asks for first); the engine threads set theirs
+// no libvips cache in this long-running process (its engine threads and export processes set their own)
 imagingForLongRuns();
 
 openDatabase();

@@ -1,5 +1,12 @@
+import type { UploadLimits } from '../batches/schemas.ts';
 import { config } from './config.ts';
 import { InvalidInput, TooLarge } from './errors.ts';
+
+/** The limits of a scan that every way in enforces (upload, rescan, ingest command, the engine), from config. */
+export function uploadLimits(): UploadLimits {
+  const c = config();
+  return { maxBytes: c.limits.maxUploadBytes, maxPixels: c.limits.maxPixels };
+}
 
 /** JSON bodies: a bulk change of a thousand prints is some 50 KB, so 1 MiB leaves room and no more. */
 export const JSON_BODY_LIMIT = 1024 * 1024;

@@ -14,16 +14,10 @@ import { Batch, Item, Original, db } from '../../../db/index.ts';
 import { probeWithHead, ScanRejected, type ScanProbe } from '../restoration/imaging.ts';
 import type { UploadLimits, UploadOutcome } from '../batches/schemas.ts';
 import { recordAudit } from './audit.ts';
-import { config } from './config.ts';
+import { uploadLimits } from './body-limits.ts';
 import { RefusedScan } from './errors.ts';
 import { enqueueAnalyse } from './processing.ts';
 import { storage } from './storage.ts';
-
-/** The limits every way in enforces, from config. */
-export function uploadLimits(): UploadLimits {
-  const c = config();
-  return { maxBytes: c.limits.maxUploadBytes, maxPixels: c.limits.maxPixels };
-}
 
 export interface IngestInput {
   archiveId: string;

@@ -5,7 +5,7 @@
  */
 import { QueryTypes } from 'sequelize';
 import { db } from '../../../db/index.ts';
-import { ANALYSIS_SIDE } from '../restoration/imaging.ts';
+import { ANALYSIS_SIDE } from '../restoration/scan-sizes.ts';
 import { ANALYSE_QUEUE, BATCH_SETTLED_QUEUE, RENDER_QUEUE, type AnalyseJob, type BatchSettledJob, type RenderJob } from './queues.ts';
 import { sendJob } from './queue.ts';
 

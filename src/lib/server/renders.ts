@@ -8,7 +8,7 @@ import { Op, literal } from 'sequelize';
 import { Correction, Item, Original } from '../../../db/index.ts';
 import { correctionSchema, type Correction as CorrectionParams } from '../restoration/correction.ts';
 import { renderCorrected, ScanRejected, type RenderOptions, type RenderResult, type ScanLimits } from '../restoration/imaging.ts';
-import { uploadLimits } from './ingest.ts';
+import { uploadLimits } from './body-limits.ts';
 import { derivedKeys, PREVIEW_SIDE, THUMBNAIL_SIDE } from './processing.ts';
 import { storage } from './storage.ts';
 

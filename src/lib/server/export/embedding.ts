@@ -4,7 +4,7 @@ import { buildExif, buildIptcFields, buildXmp, type EmbeddedMetadata } from '../
 import { withIptc } from '../../archive/iptc.ts';
 import { correctionSchema } from '../../restoration/correction.ts';
 import { renderCorrected, ScanRejected } from '../../restoration/imaging.ts';
-import { uploadLimits } from '../ingest.ts';
+import { uploadLimits } from '../body-limits.ts';
 import { storage } from '../storage.ts';
 
 /** The EXIF DateTimeDigitized form of the scan date the original's EXIF recorded, if any. */

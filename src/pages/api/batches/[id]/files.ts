@@ -2,7 +2,8 @@ import { FILE_NAME_HEADER } from '../../../../lib/batches/schemas.ts';
 import { batchForCaller, noteUploadActivity } from '../../../../lib/server/batches.ts';
 import { InvalidInput, TooLarge } from '../../../../lib/server/errors.ts';
 import { apiRoute, json } from '../../../../lib/server/http.ts';
-import { ingestScan, uploadLimits } from '../../../../lib/server/ingest.ts';
+import { uploadLimits } from '../../../../lib/server/body-limits.ts';
+import { ingestScan } from '../../../../lib/server/ingest.ts';
 import { drainingBody } from '../../../../lib/server/request-body.ts';
 
 /** The upload (one drop of files) a scan belongs to, named by the client: its prints are numbered by file name. */

@@ -3,7 +3,7 @@ import { idParam } from '../../../../lib/server/access.ts';
 import { loadItemFor } from '../../../../lib/server/item-access.ts';
 import { InvalidInput, TooLarge } from '../../../../lib/server/errors.ts';
 import { apiRoute, json } from '../../../../lib/server/http.ts';
-import { uploadLimits } from '../../../../lib/server/ingest.ts';
+import { uploadLimits } from '../../../../lib/server/body-limits.ts';
 import { attachRescan } from '../../../../lib/server/rescans.ts';
 
 /**
