@@ -59,12 +59,33 @@ export default function BatchProgress({ batchId, initial, compact = false }: Pro
           </li>
         ))}
       </ul>
-      {!compact && counts.ready > 0 && (
-        <p className="text-sm text-ink-500" data-count="full-size">
-          Full-size corrected images: <span className="font-medium tabular-nums" data-value>{counts.fullSize ?? 0}</span> of {counts.ready}
-          {(counts.fullSize ?? 0) < counts.ready ? ' (made after the analyses; reviewing does not wait for them)' : ''}
-        </p>
-      )}
+      {!compact && counts.ready > 0 && <FullSizeLine counts={counts} />}
     </div>
+  );
+}
+
+/**
+ * The full-size corrected images: a print counts once its first render is made, so the figure
+ * never goes back; prints whose correction was replaced afterwards (by the batch's shared estimate
+ * or by a change someone saved) are said to be made again, with the reason.
+ */
+function FullSizeLine({ counts }: { counts: StateCounts }) {
+  const fullSize = counts.fullSize ?? 0;
+  const remaking = counts.remaking ?? 0;
+  const shared = Math.min(counts.remakingShared ?? 0, remaking);
+  const made = fullSize + remaking;
+  const byEstimate = "with the batch's shared estimate, which refined their proposals once every scan was in";
+  const bySaved = 'with a newer correction saved since';
+  const why = shared === remaking ? ` ${byEstimate}` : shared === 0 ? ` ${bySaved}` : `: ${shared} ${byEstimate}; ${remaking - shared} ${bySaved}`;
+  return (
+    <p className="text-sm text-ink-500" data-count="full-size" data-made={made} data-remaking={remaking}>
+      Full-size corrected images: <span className="font-medium tabular-nums" data-value>{made}</span> of {counts.ready}
+      {made < counts.ready ? ' (made after the analyses; reviewing does not wait for them)' : ''}
+      {remaking > 0 && (
+        <span data-remaking-note>
+          {' '}· <span className="tabular-nums">{remaking}</span> of them being made again{why}.
+        </span>
+      )}
+    </p>
   );
 }

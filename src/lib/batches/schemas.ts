@@ -29,16 +29,21 @@ export const ITEM_STATE_LABELS: Record<ItemState, string> = {
   failed: 'Failed',
 };
 
-/** Counts of a batch's items per state, plus the total. */
 /**
- * Items per state, and `fullSize`: how many ready prints have the full-size corrected JPEG of their
- * current correction (made after "ready", once no scans wait for analysis; exports make any missing one).
+ * Items per state, plus the total, and the ready prints' full-size corrected JPEGs:
+ * - `fullSize`: prints with the full-size JPEG of their current correction (made after "ready", once
+ *   no scans wait for analysis; exports make any missing one);
+ * - `remaking`: prints with a full-size JPEG of an earlier correction whose current one is not
+ *   rendered yet (a newer version replaced it), so `fullSize + remaking` never goes back when a
+ *   correction is replaced;
+ * - `remakingShared`: those of `remaking` whose current correction is the batch's shared (pooled)
+ *   estimate, which replaces a print's own proposal once the batch has settled.
  */
-export type StateCounts = Record<ItemState, number> & { total: number; fullSize: number };
+export type StateCounts = Record<ItemState, number> & { total: number; fullSize: number; remaking: number; remakingShared: number };
 
 /** All-zero counts. */
 export function emptyCounts(): StateCounts {
-  return { queued: 0, analysing: 0, ready: 0, failed: 0, total: 0, fullSize: 0 };
+  return { queued: 0, analysing: 0, ready: 0, failed: 0, total: 0, fullSize: 0, remaking: 0, remakingShared: 0 };
 }
 
 /** True when no item of the batch still waits for or is in analysis. */

@@ -43,9 +43,15 @@ function checkDate(value: string | undefined, field: string): string | null {
 export async function stateCounts(batchIds: string[]): Promise<Map<string, StateCounts>> {
   const out = new Map<string, StateCounts>(batchIds.map((id) => [id, emptyCounts()]));
   if (batchIds.length === 0) return out;
-  const rows = await db().query<{ batch_id: string; state: ItemState; n: string; full_size: string }>(
-    `SELECT batch_id, state, count(*) AS n, count(*) FILTER (WHERE state = 'ready' AND render_version >= current_version) AS full_size
-       FROM items WHERE batch_id IN (:ids) AND deleted_at IS NULL GROUP BY batch_id, state`,
+  // A print whose correction was replaced after its render (the batch's shared estimate, or an
+  // operator's change) keeps counting as made, as "being made again": the count never goes back.
+  const rows = await db().query<{ batch_id: string; state: ItemState; n: string; full_size: string; remaking: string; remaking_shared: string }>(
+    `SELECT batch_id, state, count(*) AS n,
+            count(*) FILTER (WHERE state = 'ready' AND render_version >= current_version) AS full_size,
+            count(*) FILTER (WHERE state = 'ready' AND render_version < current_version) AS remaking,
+            count(*) FILTER (WHERE state = 'ready' AND render_version < current_version AND EXISTS (
+              SELECT 1 FROM corrections c WHERE c.item_id = i.id AND c.version = i.current_version AND c.origin = 'pooled')) AS remaking_shared
+       FROM items i WHERE batch_id IN (:ids) AND deleted_at IS NULL GROUP BY batch_id, state`,
     { replacements: { ids: batchIds }, type: QueryTypes.SELECT },
   );
   for (const r of rows) {
@@ -53,6 +59,8 @@ export async function stateCounts(batchIds: string[]): Promise<Map<string, State
     if ((ITEM_STATES as readonly string[]).includes(r.state)) c[r.state] = Number(r.n);
     c.total += Number(r.n);
     c.fullSize += Number(r.full_size);
+    c.remaking += Number(r.remaking);
+    c.remakingShared += Number(r.remaking_shared);
   }
   return out;
 }
