@@ -18,7 +18,11 @@ export function queue(): Promise<PgBoss> {
     await boss.start();
     // the dead-letter queue first: pg-boss refuses a queue whose dead-letter queue does not exist yet
     const queues = Object.values(QUEUES).sort((a, b) => Number(Boolean(a.options.deadLetter)) - Number(Boolean(b.options.deadLetter)));
-    for (const q of queues) await boss.createQueue(q.name, { name: q.name, ...q.options }).catch(ignoreExists);
+    for (const q of queues) {
+      await boss.createQueue(q.name, { name: q.name, ...q.options }).catch(ignoreExists);
+      // a queue made by an earlier version takes the policy declared now
+      await boss.updateQueue(q.name, { name: q.name, ...q.options });
+    }
     return boss;
   })();
   return started;
