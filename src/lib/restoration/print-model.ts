@@ -4,8 +4,8 @@
  * (k and s of the best such fit between the fresh and the aged print), and to the probability that
  * it has aged at all. Its numbers are fitted on the development photographs of the accuracy lab,
  * aged by the lab's own simulator (`npm run fit-priors`, tests/lab/fit-priors.ts), and kept in
- * priors.ts. Each member was fitted with a different fifth of those photographs held out; their
- * disagreement is the estimate's uncertainty.
+ * priors.ts. Each member was fitted with a different fifth of those photographs held out (two members
+ * per fifth, with seeds of their own); their disagreement is the estimate's uncertainty.
  */
 import { PRIORS } from './priors';
 
