@@ -202,20 +202,17 @@ export async function archiveCounts(archiveId: string): Promise<Map<string, Stat
  * and with `items` the changed items too. Resolves, once changes are being listened for, to the
  * call that stops watching.
  */
-export async function watchBatch(batchId: string, options: { items: boolean }, send: (event: LiveEvent) => void): Promise<() => void> {
-  const stop = add(byBatch, batchId, { send, items: options.items });
-  try {
-    await whenListening();
-  } catch (err) {
-    stop();
-    throw err;
-  }
-  return stop;
+export function watchBatch(batchId: string, options: { items: boolean }, send: (event: LiveEvent) => void): Promise<() => void> {
+  return onceListening(add(byBatch, batchId, { send, items: options.items }));
 }
 
 /** Watches every batch of one archive (already authorised by the caller): counts only. */
-export async function watchArchive(archiveId: string, send: (event: LiveEvent) => void): Promise<() => void> {
-  const stop = add(byArchive, archiveId, { send, items: false });
+export function watchArchive(archiveId: string, send: (event: LiveEvent) => void): Promise<() => void> {
+  return onceListening(add(byArchive, archiveId, { send, items: false }));
+}
+
+/** Resolves to `stop` once changes are being listened for; if listening fails, stops the watch and rejects. */
+async function onceListening(stop: () => void): Promise<() => void> {
   try {
     await whenListening();
   } catch (err) {
