@@ -57,7 +57,7 @@ export const listQuery = z
   .strict();
 export type ListQuery = z.infer<typeof listQuery>;
 
-/** Turns URL search parameters into the plain object {@link listQuery} reads; `brief` is the upload page's own flag and is left out. */
+/** Turns URL search parameters into the plain object {@link listQuery} reads; `brief` (the short list of the items route) is left out. */
 export function searchParamsToObject(params: URLSearchParams): Record<string, unknown> {
   const out: Record<string, unknown> = {};
   for (const [k, v] of params) {

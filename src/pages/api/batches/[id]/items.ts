@@ -10,7 +10,7 @@ import { listQuery, searchParamsToObject } from '../../../../lib/review/listing.
  * found); `state`, `decision` (or `undecided`), `grade` and `missing` (caption, date, people)
  * filter; `sort` orders. `view=rows` answers in the batch table's shape with the batch's tally,
  * `view=ids` every match's id and lockVersion unpaged. `?brief=1` gives every item's id, seq,
- * name, state and failure reason (what the upload page polls).
+ * name, state and failure reason (a short list for scripts; the upload page follows the batch event stream, whose `?items=1` carries the same fields).
  */
 export const GET = apiRoute(async ({ locals, params, url }) => {
   const batch = await batchForCaller(locals, params.id, 'viewer');
