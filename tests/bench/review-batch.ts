@@ -32,7 +32,7 @@ import { openDatabase } from '../../src/lib/server/database.ts';
 import { AGEING_MODELS, syntheticScan } from '../../src/lib/demo/synthetic.ts';
 import { storage } from '../../src/lib/server/storage.ts';
 import { TEST_PASSWORD, type TestArchive } from '../support/fixtures.ts';
-import { launchBrowser } from '../support/browser.ts';
+import { launchBrowser, signInPage } from '../support/browser.ts';
 import { Client, signedIn } from '../support/http.ts';
 
 openDatabase();
@@ -226,11 +226,7 @@ async function measure(archive: TestArchive, browser: BrowserContext): Promise<v
 
   const page = await browser.newPage();
   await page.addInitScript('window.__name = (f) => f');
-  await page.goto(`${BASE}/signin`);
-  await page.getByLabel('E-mail', { exact: true }).fill(archive.editor.email);
-  await page.getByLabel('Password').fill(TEST_PASSWORD);
-  await page.getByRole('button', { name: 'Sign in', exact: true }).click();
-  await page.waitForLoadState('networkidle');
+  await signInPage(page, archive.editor.email, TEST_PASSWORD);
 
   const countElements = () => page.evaluate(() => document.querySelectorAll('*').length);
   const loads: number[] = [];

@@ -21,7 +21,7 @@ import { closeDb } from '../../db/index.ts';
 import { openDatabase } from '../../src/lib/server/database.ts';
 import { AGEING_MODELS, syntheticScan } from '../../src/lib/demo/synthetic.ts';
 import { makeArchive, TEST_PASSWORD } from '../support/fixtures.ts';
-import { launchBrowser } from '../support/browser.ts';
+import { launchBrowser, signInPage } from '../support/browser.ts';
 import { Client } from '../support/http.ts';
 import { benchBatchPage } from './review-batch.ts';
 
@@ -70,11 +70,7 @@ async function main() {
     const page = await browser.newPage();
     // tsx keeps function names with a __name helper that does not exist inside the page
     await page.addInitScript('window.__name = (f) => f');
-    await page.goto(`${BASE}/signin`);
-    await page.getByLabel('E-mail', { exact: true }).fill(archive.editor.email);
-    await page.getByLabel('Password').fill(TEST_PASSWORD);
-    await page.getByRole('button', { name: 'Sign in', exact: true }).click();
-    await page.waitForLoadState('networkidle');
+    await signInPage(page, archive.editor.email, TEST_PASSWORD);
     await page.goto(`${BASE}/items/${itemId}`);
     await page.waitForSelector('[data-compare-view][data-loaded="yes"]', { timeout: 60_000 });
     const previewSide = await page.evaluate(() => {
