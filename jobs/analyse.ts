@@ -42,17 +42,35 @@ export async function settleIfDone(batchId: string): Promise<void> {
   if (pending === 0) await enqueueBatchSettled(batchId);
 }
 
+/** Prints a job of this process is analysing now. */
+const inHand = new Set<string>();
+
 async function analyseItem(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<void> {
-  // Claimed in one statement: a queued item, or one held by a worker that is gone (its presence
-  // connection closed, jobs/presence.ts). An item a live worker holds is left to it, so a scan is
-  // analysed once however many jobs name it; analysis_runs counts the claims.
+  const id = job.data.itemId;
+  // a second job for a print this process is analysing already leaves it to the first
+  if (inHand.has(id)) return;
+  inHand.add(id);
+  try {
+    await claimAndAnalyse(job);
+  } finally {
+    inHand.delete(id);
+  }
+}
+
+async function claimAndAnalyse(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise<void> {
+  // Claimed in one statement: a queued item, one held by a worker that is gone (its presence
+  // connection closed, jobs/presence.ts), or one this worker holds from an earlier attempt that
+  // could not hand it back (the database was away; no job of this process holds it now). An item
+  // another live worker holds is left to it, so a scan is analysed once however many jobs name
+  // it; analysis_runs counts the claims.
   const [claimed] = await db().query<{ id: string; batch_id: string; original_id: string; storage_key: string }>(
     `UPDATE items i SET state = 'analysing', failure_reason = NULL, analysing_by = :worker, analysis_runs = i.analysis_runs + 1, updated_at = now()
        FROM originals o
       WHERE i.id = :id AND o.id = i.original_id AND i.deleted_at IS NULL
         AND (i.state = 'queued'
-             OR (i.state = 'analysing' AND i.analysing_by IS DISTINCT FROM :worker
-                 AND (i.analysing_by IS NULL OR NOT EXISTS (SELECT 1 FROM pg_stat_activity a WHERE a.application_name = :prefix || i.analysing_by))))
+             OR (i.state = 'analysing'
+                 AND (i.analysing_by IS NULL OR i.analysing_by = :worker
+                      OR NOT EXISTS (SELECT 1 FROM pg_stat_activity a WHERE a.application_name = :prefix || i.analysing_by))))
     RETURNING i.id, i.batch_id, i.original_id, o.storage_key`,
     { replacements: { id: job.data.itemId, worker: WORKER_ID, prefix: PRESENCE_PREFIX }, type: QueryTypes.SELECT },
   );
