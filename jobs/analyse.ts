@@ -148,6 +148,26 @@ async function claimAndAnalyse(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise
   await settleIfDone(item.batchId);
 }
 
+/**
+ * Prints this worker holds in analysis that no job of this process is analysing: a claim whose
+ * job then lost the database before it could hand the print back (or whose answer was lost on
+ * the way). pg-boss would retry that job only when its lease runs out (expireInSeconds), so they
+ * are queued again now, with a job of their own. A claim younger than a minute is left alone: its
+ * job may have claimed it while this sweep was reading which prints are in hand.
+ */
+async function handBackOrphans(): Promise<void> {
+  const rows = await db().query<{ id: string; pixels: string | null }>(
+    `UPDATE items i SET state = 'queued', analysing_by = NULL, updated_at = now()
+       FROM originals o
+      WHERE o.id = i.original_id AND i.state = 'analysing' AND i.analysing_by = :worker AND i.deleted_at IS NULL
+        AND i.updated_at < now() - interval '1 minute' AND NOT (i.id::text = ANY(string_to_array(:inHand, ',')))
+    RETURNING i.id, (o.width::bigint * o.height) AS pixels`,
+    { replacements: { worker: WORKER_ID, inHand: [...inHand].join(',') }, type: QueryTypes.SELECT },
+  );
+  for (const r of rows) await enqueueAnalyse(r.id, r.pixels === null ? null : Number(r.pixels));
+  if (rows.length) console.log(`worker ${process.pid}: ${rows.length} analysis(es) this worker could not hand back queued again`);
+}
+
 /** An item left queued this long with no job sent since (its process stopped between commit and send) gets one. */
 const STRANDED_AFTER = "interval '2 minutes'";
 
@@ -161,6 +181,7 @@ const STRANDED_AFTER = "interval '2 minutes'";
 export async function sweepAnalyses(): Promise<void> {
   await removeStaleTemporaries();
   await requeueInterrupted();
+  await handBackOrphans();
   const stranded = await db().query<{ id: string; pixels: number | null }>(
     `SELECT i.id, (o.width::bigint * o.height) AS pixels
        FROM items i JOIN originals o ON o.id = i.original_id
