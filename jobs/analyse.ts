@@ -20,6 +20,7 @@ import {
   type AnalyseJob,
 } from '../src/lib/server/processing.ts';
 import { queue } from '../src/lib/server/queue.ts';
+import { proposeSamePictures } from '../src/lib/server/same-picture.ts';
 import { storage } from '../src/lib/server/storage.ts';
 import { removeStaleTemporaries } from '../src/lib/server/stale-files.ts';
 import { config } from '../src/lib/server/config.ts';
@@ -106,7 +107,8 @@ async function claimAndAnalyse(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise
       .query(
         `WITH done AS (
            UPDATE items SET state = 'ready', failure_reason = NULL, analysing_by = NULL, analysis = :analysis::jsonb, fade_grade = :grade,
-                  current_version = :version, thumb_key = :thumb, preview_key = :preview, preview_version = :version, updated_at = now()
+                  current_version = :version, thumb_key = :thumb, preview_key = :preview, preview_version = :version,
+                  fingerprint = ('x' || :fingerprint)::bit(128), updated_at = now()
             WHERE id = :id AND state = 'analysing' AND original_id = :originalId
            RETURNING id)
          INSERT INTO corrections (id, item_id, version, params, origin, created_by, created_at)
@@ -121,6 +123,7 @@ async function claimAndAnalyse(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise
             thumb: keys.thumbnail,
             preview: original.preview ? keys.preview : null,
             params: JSON.stringify(result.correction),
+            fingerprint: result.fingerprint,
           },
         },
       )
@@ -128,6 +131,9 @@ async function claimAndAnalyse(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise
         if ((err as Error)?.name === 'SequelizeUniqueConstraintError') return;
         throw err;
       });
+    // other scans of the same picture in the archive, proposed to the editor (the print is ready
+    // either way: a look-up that fails leaves it without proposals, never unanalysed)
+    await proposeSamePictures(item.id).catch((err) => console.error(`same picture ${item.id}: ${(err as Error)?.message ?? err}`));
     const ms = (a: number, b: number) => Math.round(b - a);
     console.log(`analyse ${item.id}: ${ms(started, performance.now())} ms (engine ${ms(started, engineDone)}, files ${ms(engineDone, filesDone)}, database ${ms(filesDone, performance.now())})`);
   } catch (err) {

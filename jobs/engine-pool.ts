@@ -17,9 +17,10 @@ type ThreadAnalyseAndRenderOptions = Omit<AnalyseAndRenderOptions, 'decodeSlot'>
 export type EngineRequest =
   | { kind: 'analyseAndRender'; path: string; options: ThreadAnalyseAndRenderOptions }
   | { kind: 'analyseForReview'; path: string; options: ReviewCopiesOptions }
-  | { kind: 'renderCorrected'; path: string; correction: Correction; options: RenderOptions; limits?: Partial<ScanLimits> };
+  | { kind: 'renderCorrected'; path: string; correction: Correction; options: RenderOptions; limits?: Partial<ScanLimits> }
+  | { kind: 'fingerprint'; path: string; limits?: Partial<ScanLimits> };
 
-type EngineResult = RenderResult | ReviewCopiesResult;
+type EngineResult = RenderResult | ReviewCopiesResult | { fingerprint: string | null };
 /**
  * A refused scan comes back as an answer, not as a thrown error: structured cloning keeps an
  * error's message but not its code, which the jobs need.
@@ -32,6 +33,7 @@ function asBuffer(b: Uint8Array | undefined): Buffer | undefined {
 }
 
 function revive<T extends EngineResult>(r: T): T {
+  if (!('previews' in r) && !('buffer' in r)) return r;
   if ('buffer' in r) r.buffer = asBuffer(r.buffer)!;
   if (r.previews) {
     for (const set of [r.previews.original, r.previews.corrected]) {
@@ -74,6 +76,11 @@ export class EnginePool {
 
   renderCorrected(path: string, correction: Correction, options: RenderOptions, limits?: Partial<ScanLimits>): Promise<RenderResult> {
     return this.submit({ kind: 'renderCorrected', path, correction, options, limits }) as Promise<RenderResult>;
+  }
+
+  /** The picture fingerprint of a scan alone (for prints analysed before fingerprints were kept). */
+  async fingerprint(path: string, limits?: Partial<ScanLimits>): Promise<string | null> {
+    return ((await this.submit({ kind: 'fingerprint', path, limits })) as { fingerprint: string | null }).fingerprint;
   }
 
   /** Stops the threads; scans still waiting are refused. */

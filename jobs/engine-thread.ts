@@ -4,7 +4,7 @@
  * scans (tables, analysis) and their garbage collection run side by side on both cores, and the
  * main thread is left to the queue, the files and the database.
  */
-import { analyseAndRender, analyseForReview, imagingForLongRuns, renderCorrected, ScanRejected } from '../src/lib/restoration/imaging.ts';
+import { analyseAndRender, analyseForReview, fingerprintScan, imagingForLongRuns, renderCorrected, ScanRejected } from '../src/lib/restoration/imaging.ts';
 import type { EngineReply, EngineRequest } from './engine-pool.ts';
 
 imagingForLongRuns();
@@ -17,7 +17,9 @@ export default async function engineTask(req: EngineRequest): Promise<EngineRepl
         ? await analyseAndRender(req.path, req.options)
         : req.kind === 'analyseForReview'
           ? await analyseForReview(req.path, req.options)
-          : await renderCorrected(req.path, req.correction, req.options, req.limits);
+          : req.kind === 'fingerprint'
+            ? { fingerprint: await fingerprintScan(req.path, req.limits) }
+            : await renderCorrected(req.path, req.correction, req.options, req.limits);
     return { ok: true, result };
   } catch (err) {
     return { ok: false, rejected: err instanceof ScanRejected ? err.code : undefined, message: String((err as Error)?.message ?? err) };

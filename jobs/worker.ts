@@ -16,6 +16,7 @@ import { reconcileOriginals } from '../src/lib/server/reconcile.ts';
 import { schedulePurge } from './purge-removed.ts';
 import { requeueInterrupted, startPresence, stopPresence } from './presence.ts';
 import { sweepAnalyses } from './analyse.ts';
+import { BACKFILL_EVERY_MS, backfillFingerprints } from './fingerprints.ts';
 import { RESUME_EXPORTS_EVERY_MS, resumeExports } from './export.ts';
 
 // no libvips cache in this long-running process (its engine threads and export processes set their own)
@@ -78,6 +79,8 @@ function every(label: string, ms: number, fn: () => Promise<unknown>, now = fals
 setInterval(feedRendersSoon, FEED_EVERY_MS).unref();
 // analyses cut short, stranded items, stale temporary files (jobs/analyse.ts)
 every('analyse: sweep', ANALYSE_SWEEP_MS, sweepAnalyses);
+// fingerprints of prints analysed before they were kept (jobs/fingerprints.ts)
+every('fingerprints: earlier prints', BACKFILL_EVERY_MS, backfillFingerprints, true);
 // exports a stopped worker left running (jobs/export.ts)
 every('export: resuming stalled exports', RESUME_EXPORTS_EVERY_MS, resumeExports);
 // Originals an upload cut short by a database outage left without a row: listed and logged, at

@@ -18,6 +18,8 @@ export class Batch extends Model<InferAttributes<Batch>, InferCreationAttributes
   declare finishedNotifiedAt: CreationOptional<Date | null>;
   /** When an upload request into the batch last started or ended (the batch is not quiet while uploads go on). */
   declare lastUploadAt: CreationOptional<Date | null>;
+  /** Uploaded as rescans from the negatives: its scans are matched to the prints set aside for one. */
+  declare holdsRescans: CreationOptional<boolean>;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
   /** When the batch was removed (with its prints): restorable for 30 days, then purged. */
@@ -37,6 +39,7 @@ export class Batch extends Model<InferAttributes<Batch>, InferCreationAttributes
         createdBy: DataTypes.UUID,
         finishedNotifiedAt: DataTypes.DATE,
         lastUploadAt: DataTypes.DATE,
+        holdsRescans: { type: DataTypes.BOOLEAN, allowNull: false, defaultValue: false },
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
         deletedAt: DataTypes.DATE,

@@ -19,6 +19,9 @@
  * print within it; false_match_share is their share of all those queries (rescans and unrelated).
  * Also printed: the same shares at other distances (to choose the rule), the spread of distances,
  * and the fingerprint's time per scan on the lab's copies and on a 1280 px analysis copy.
+ * Then the look-up as the product makes it, in PostgreSQL over an archive of 10 000 prints (the
+ * faded prints' fingerprints among random ones), each rescan asked for once, against the floor of
+ * one pass counting the same prints (tests/bench/duplicates-lookup.ts).
  * Set DUPLICATES_CASES_DIR to also write every case as a JPEG with a manifest.json (to measure
  * another fingerprint on the very same files).
  */
@@ -28,7 +31,9 @@ import { AGEING_MODELS, agePixels, generateScene } from '../../src/lib/demo/synt
 import { fingerprint, fingerprintDistance, SAME_PICTURE_DISTANCE } from '../../src/lib/images/fingerprint';
 import { encodePixels, loadReduced } from '../../src/lib/restoration/imaging';
 import { loadPhoto, PHOTOS, type Photo } from '../lab/photos';
-import { agePhoto, decode, drawAgeing, encode, rng, type AgeingMode } from '../lab/simulator';
+import { rng } from '../lab/simulator';
+import { AGEING_MODES, cleanRescan, cropPixels, expose, fadedScan } from '../support/same-picture-scans';
+import { measureLookup } from './duplicates-lookup';
 
 const PRINTS = 30;
 const RESCANS_PER_PRINT = 2;
@@ -39,7 +44,6 @@ const SIDE = 512;
 const r = rng(20261203);
 const uniform = (a: number, b: number) => a + (b - a) * r();
 const pick = <T>(xs: readonly T[]): T => xs[Math.floor(r() * xs.length)];
-const MODES: AgeingMode[] = ['none', 'dark', 'light', 'mixed', 'monochrome'];
 
 interface Scan {
   id: string;
@@ -50,22 +54,8 @@ interface Scan {
   hash?: string;
 }
 
-function cropPixels(photo: Photo, x0: number, y0: number, w: number, h: number): Photo {
-  const data = new Uint8Array(w * h * 3);
-  for (let y = 0; y < h; y++) data.set(photo.data.subarray(((y0 + y) * photo.width + x0) * 3, ((y0 + y) * photo.width + x0 + w) * 3), y * w * 3);
-  return { id: photo.id, width: w, height: h, data };
-}
-
-/** Another exposure: a gain and a gamma in linear light, by table. */
-function expose(photo: Photo, gain: number, gamma: number): Photo {
-  const lut = Uint8Array.from({ length: 256 }, (_, c) => Math.round(Math.min(1, encode(Math.min(1, Math.pow(decode(c / 255), gamma) * gain))) * 255));
-  return { ...photo, data: photo.data.map((v) => lut[v]) };
-}
-
-async function fadedScan(photo: Photo, seed: number): Promise<Buffer> {
-  const a = drawAgeing(rng(seed), pick(MODES));
-  const print = agePhoto(photo, a, seed);
-  return encodePixels({ data: print.aged, width: print.width, height: print.height }, { format: 'jpeg', quality: a.jpegQuality });
+async function faded(photo: Photo, seed: number): Promise<Buffer> {
+  return fadedScan(photo, seed, pick(AGEING_MODES));
 }
 
 async function cases(): Promise<Scan[]> {
@@ -75,14 +65,9 @@ async function cases(): Promise<Scan[]> {
   const scans: Scan[] = [];
   for (const [i, src] of targets.entries()) {
     const photo = await loadPhoto(src, SIDE);
-    scans.push({ id: `print-${src.id}`, picture: src.id, kind: 'print', jpeg: await fadedScan(photo, 1000 + i) });
+    scans.push({ id: `print-${src.id}`, picture: src.id, kind: 'print', jpeg: await faded(photo, 1000 + i) });
     for (let k = 0; k < RESCANS_PER_PRINT; k++) {
-      const [l, t, rt, b] = [0, 0, 0, 0].map(() => uniform(0.01, 0.05));
-      const x0 = Math.round(l * photo.width);
-      const y0 = Math.round(t * photo.height);
-      const cropped = cropPixels(photo, x0, y0, Math.round(photo.width * (1 - rt)) - x0, Math.round(photo.height * (1 - b)) - y0);
-      const exposed = expose(cropped, uniform(0.75, 1.3), uniform(0.85, 1.15));
-      scans.push({ id: `rescan-${src.id}-${k}`, picture: src.id, kind: 'rescan', jpeg: await encodePixels(exposed, { format: 'jpeg', quality: Math.round(uniform(80, 95)) }) });
+      scans.push({ id: `rescan-${src.id}-${k}`, picture: src.id, kind: 'rescan', jpeg: await cleanRescan(photo, r) });
     }
   }
   const photos = await Promise.all(others.map((src) => loadPhoto(src, SIDE)));
@@ -91,7 +76,7 @@ async function cases(): Promise<Scan[]> {
     const w = Math.round(photo.width * uniform(0.3, 0.9));
     const h = Math.round(photo.height * uniform(0.3, 0.9));
     const crop = cropPixels(photo, Math.floor(r() * (photo.width - w)), Math.floor(r() * (photo.height - h)), w, h);
-    const jpeg = r() < 0.5 ? await fadedScan(crop, 5000 + i) : await encodePixels(expose(crop, uniform(0.8, 1.2), uniform(0.9, 1.1)), { format: 'jpeg', quality: 90 });
+    const jpeg = r() < 0.5 ? await faded(crop, 5000 + i) : await encodePixels(expose(crop, uniform(0.8, 1.2), uniform(0.9, 1.1)), { format: 'jpeg', quality: 90 });
     scans.push({ id: `crop-${photo.id}-${i}`, picture: `crop-${photo.id}-${i}`, kind: 'unrelated', jpeg });
   }
   const ageings = [AGEING_MODELS.none(), AGEING_MODELS.darkStorage(uniform(0.3, 1)), AGEING_MODELS.lightFaded(uniform(0.3, 1))];
@@ -176,3 +161,16 @@ console.log(`other_picture_distance_p001: ${quantile(otherDistances, 0.001)}`);
 console.log(`other_picture_distance_min: ${Math.min(...otherDistances)}`);
 console.log(`fingerprint_ms: ${mean(timings).toFixed(2)}`);
 console.log(`fingerprint_ms_1280px: ${Math.min(...bigTimes).toFixed(2)}`);
+
+// The same look-up in the database, across an archive of 10 000 prints (tests/bench/duplicates-lookup.ts).
+const lookup = await measureLookup(
+  prints.map((p) => p.hash!),
+  rescans.map((q) => ({ fingerprint: q.hash!, expect: prints.findIndex((p) => p.picture === q.picture) })),
+);
+console.log(`lookup_prints: ${lookup.prints}`);
+console.log(`lookup_plan: ${lookup.plan}`);
+console.log(`lookup_ms_10000: ${lookup.lookupMs.toFixed(2)}`);
+console.log(`lookup_floor_count_ms_10000: ${lookup.floorCountMs.toFixed(2)}`);
+console.log(`lookup_floor_round_trip_ms: ${lookup.floorRoundTripMs.toFixed(2)}`);
+console.log(`lookup_over_count_floor: ${(lookup.lookupMs / lookup.floorCountMs).toFixed(2)}`);
+console.log(`lookup_rescans_found_share: ${lookup.foundShare.toFixed(3)}`);

@@ -18,6 +18,7 @@ import { analysePixels, samplePixels, type Analysis, type ReducedPixels } from '
 import { applyCorrection, applyGeometry, buildChannelLuts, correctionSchema, geometryPlan, hasGeometry, isIdentity, type Correction } from './correction';
 import { ScanRejected } from './errors';
 import { ANALYSIS_SIDE, DEFAULT_LIMITS, reviewCopySide, type ScanFormat } from './scan-sizes';
+import { fingerprint } from '../images/fingerprint';
 
 export { ScanRejected } from './errors';
 
@@ -640,6 +641,11 @@ export interface ReviewCopiesResult {
   /** The proposed correction, which the corrected small copies show. */
   correction: Correction;
   previews: { original: PreviewSet; corrected: PreviewSet };
+  /**
+   * The picture fingerprint of the same copy (src/lib/images/fingerprint.ts), to find other scans
+   * of the picture; null for a scan too small to give one.
+   */
+  fingerprint: string | null;
 }
 
 /**
@@ -660,7 +666,29 @@ export async function analyseForReview(input: string | Buffer, options: ReviewCo
   const analysis = analysePixels(small);
   const correction = analysis.proposed;
   const previews = await smallCopies(small, correction, options.previews);
-  return { probe, analysis, correction, previews };
+  return { probe, analysis, correction, previews, fingerprint: fingerprintOf(small) };
+}
+
+/**
+ * The picture fingerprint alone, from the same reduced copy {@link analyseForReview} measures (so it
+ * equals the one the analysis stores): for prints analysed before fingerprints were kept.
+ * @throws {ScanRejected}
+ */
+export async function fingerprintScan(input: string | Buffer, limits?: Partial<ScanLimits>): Promise<string | null> {
+  const file = await asBuffer(input);
+  const probe = await probeScan(file, limits);
+  const side = reviewCopySide(Math.max(probe.width, probe.height), probe.format);
+  return fingerprintOf(await decodeReduced(file, probe, side, 'linear'));
+}
+
+/** The fingerprint of a reduced copy, or null when the scan is too small to make one. */
+function fingerprintOf(small: ReducedPixels): string | null {
+  try {
+    return fingerprint(small);
+  } catch (err) {
+    if (err instanceof RangeError) return null;
+    throw err;
+  }
 }
 
 /**
