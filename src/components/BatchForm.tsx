@@ -66,6 +66,13 @@ export default function BatchForm() {
         <label className="label" htmlFor="batch-notes">Notes (optional)</label>
         <textarea id="batch-notes" className="field" rows={3} maxLength={4000} value={form.notes} onChange={set('notes')} />
       </div>
+      <div className="flex items-start gap-2">
+        <input id="batch-rescans" type="checkbox" className="mt-1" checked={form.holdsRescans ?? false} onChange={(e) => setForm((f) => ({ ...f, holdsRescans: e.target.checked }))} aria-describedby="rescans-help" />
+        <div>
+          <label htmlFor="batch-rescans">These are rescans from the negatives</label>
+          <p id="rescans-help" className="text-xs text-ink-500">Each scan is matched to the print set aside for a rescan that it shows, and you confirm before it replaces that print’s scan.</p>
+        </div>
+      </div>
       <div>
         <button className="btn-primary" type="submit" disabled={busy}>{busy ? 'Creating …' : 'Create batch and add scans'}</button>
       </div>

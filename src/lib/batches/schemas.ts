@@ -88,6 +88,8 @@ export const batchCreateSchema = z
     dateFrom: looseDate,
     dateTo: looseDate,
     notes: optionalText(4000, 'The notes', true),
+    /** "These are rescans": scans from the negatives of prints set aside for one, matched to those prints. */
+    holdsRescans: z.boolean().optional(),
   })
   .superRefine((b, ctx) => {
     const from = b.dateFrom ? dateSpan(b.dateFrom) : null;

@@ -99,6 +99,7 @@ export async function createBatch(archiveId: string, userId: string, input: Batc
       dateFrom,
       dateTo,
       notes: input.notes ?? '',
+      holdsRescans: input.holdsRescans ?? false,
       createdBy: userId,
     });
   } catch (err) {

@@ -4,7 +4,7 @@
  * becomes the current image, while the first print scan is kept as the item's print original.
  */
 import type { Readable } from 'node:stream';
-import { QueryTypes } from 'sequelize';
+import { QueryTypes, type Transaction } from 'sequelize';
 import { Correction, Item, Original, db } from '../../../db/index.ts';
 import { sourceInWords } from '../archive/source.ts';
 import { recordAudit } from './audit.ts';
@@ -163,48 +163,80 @@ export async function attachRescanAs(input: AttachRescanInput & { userId: string
   if (item.state === 'queued' || item.state === 'analysing') throw new Conflict('That print is still being analysed; attach the rescan when it is done.', 'busy');
   const userId = input.userId;
   const stored = await storeScanOriginal({ archiveId: item.archiveId, userId, name: input.name, body: input.body, requestId: input.requestId });
-  const result = await db().transaction(async (transaction) => {
-    const it = await Item.findByPk(item.id, { transaction, lock: transaction.LOCK.UPDATE });
-    if (!it) throw new Conflict('That print was removed meanwhile.');
-    if (it.state === 'queued' || it.state === 'analysing') throw new Conflict('That print is still being analysed; attach the rescan when it is done.', 'busy');
-    if (it.originalId === stored.original.id || it.printOriginalId === stored.original.id) throw new Conflict('That is the same scan this print already has; choose the scan of the negative.', 'same_scan');
-    const clash = await Item.findOne({ where: { batchId: it.batchId, originalId: stored.original.id }, transaction });
-    if (clash) throw new Conflict(`That scan is already print ${clash.seq} of this batch.`, 'duplicate');
-    const printOriginalId = it.printOriginalId ?? it.originalId;
-    const before = it.originalId;
-    // Correction versions were made for the print scan; the analysis of the negative's scan starts
-    // again at version 1 (jobs/analyse.ts). The old versions are kept in the audit log, not lost.
-    const corrections = await Correction.findAll({ where: { itemId: it.id }, order: [['version', 'ASC']], transaction });
-    const printCorrections = corrections.map((c) => ({ version: c.version, origin: c.origin, params: c.params, createdBy: c.createdBy, createdAt: c.createdAt }));
-    await Correction.destroy({ where: { itemId: it.id }, transaction });
-    it.set({
-      printOriginalId,
-      originalId: stored.original.id,
-      state: 'queued',
-      failureReason: null,
-      analysis: null,
-      fadeGrade: null,
-      thumbKey: null,
-      previewKey: null,
-      renderKey: null,
-      renderVersion: null,
-      previewVersion: null,
-      renderQueuedVersion: null,
-      renderQueuedAt: null,
-      currentVersion: null,
-      decision: null,
-      decidedBy: null,
-      decidedAt: null,
-      lockVersion: it.lockVersion + 1,
-    });
-    await it.save({ transaction });
-    await recordAudit(
-      { archiveId: it.archiveId, actorId: userId, action: 'item.rescan_attached', subjectType: 'item', subjectId: it.id, details: { from: before, to: stored.original.id, printOriginalId, sha256: stored.sha256, name: input.name, printCorrections }, requestId: input.requestId },
-      transaction,
-    );
-    return { itemId: it.id, originalId: stored.original.id, printOriginalId, sha256: stored.sha256, state: it.state };
-  });
+  const result = await db().transaction((transaction) => replaceScan(item.id, stored.original, { userId, requestId: input.requestId, name: input.name, sha256: stored.sha256 }, transaction));
   await enqueueAnalyse(item.id, (stored.original.width ?? 0) * (stored.original.height ?? 0));
+  return result;
+}
+
+/**
+ * Makes `original` (a stored scan of the negative) the current scan of print `itemId`, inside the
+ * caller's transaction: the first print scan is kept as print_original_id (originals are never
+ * overwritten or deleted here), the corrections made for the old scan go to the audit entry, and
+ * the print is queued to be analysed again from the new scan (the caller sends the job after the
+ * commit). Its rescan decision is cleared, so it leaves the rescan list.
+ * @throws {Conflict} while the print is being analysed, for the very scan it already has, or a scan already in its batch
+ */
+async function replaceScan(itemId: string, original: Original, by: { userId: string; requestId?: string; name: string; sha256: string }, transaction: Transaction): Promise<AttachRescanResult> {
+  const it = await Item.findByPk(itemId, { transaction, lock: transaction.LOCK.UPDATE });
+  if (!it) throw new Conflict('That print was removed meanwhile.');
+  if (it.state === 'queued' || it.state === 'analysing') throw new Conflict('That print is still being analysed; attach the rescan when it is done.', 'busy');
+  if (it.originalId === original.id || it.printOriginalId === original.id) throw new Conflict('That is the same scan this print already has; choose the scan of the negative.', 'same_scan');
+  const clash = await Item.findOne({ where: { batchId: it.batchId, originalId: original.id }, transaction });
+  if (clash) throw new Conflict(`That scan is already print ${clash.seq} of this batch.`, 'duplicate');
+  const printOriginalId = it.printOriginalId ?? it.originalId;
+  const before = it.originalId;
+  // Correction versions were made for the print scan; the analysis of the negative's scan starts
+  // again at version 1 (jobs/analyse.ts). The old versions are kept in the audit log, not lost.
+  const corrections = await Correction.findAll({ where: { itemId: it.id }, order: [['version', 'ASC']], transaction });
+  const printCorrections = corrections.map((c) => ({ version: c.version, origin: c.origin, params: c.params, createdBy: c.createdBy, createdAt: c.createdAt }));
+  await Correction.destroy({ where: { itemId: it.id }, transaction });
+  it.set({
+    printOriginalId,
+    originalId: original.id,
+    state: 'queued',
+    failureReason: null,
+    analysis: null,
+    fadeGrade: null,
+    thumbKey: null,
+    previewKey: null,
+    renderKey: null,
+    renderVersion: null,
+    previewVersion: null,
+    renderQueuedVersion: null,
+    renderQueuedAt: null,
+    currentVersion: null,
+    decision: null,
+    decidedBy: null,
+    decidedAt: null,
+    lockVersion: it.lockVersion + 1,
+  });
+  await it.save({ transaction });
+  // the fingerprint was the old scan's; the analysis of the new one stores its own
+  await db().query('UPDATE items SET fingerprint = NULL WHERE id = :id', { replacements: { id: it.id }, transaction });
+  await recordAudit(
+    { archiveId: it.archiveId, actorId: by.userId, action: 'item.rescan_attached', subjectType: 'item', subjectId: it.id, details: { from: before, to: original.id, printOriginalId, sha256: by.sha256, name: by.name, printCorrections }, requestId: by.requestId },
+    transaction,
+  );
+  return { itemId: it.id, originalId: original.id, printOriginalId, sha256: by.sha256, state: it.state };
+}
+
+/**
+ * Uses the scan of `rescan`, a print uploaded as a rescan from the negative, as the scan of
+ * `print`, set aside for one: the print keeps its number, captions and batch, its first scan stays
+ * as its print original, and it is analysed again from the rescan (and so leaves the rescan list).
+ * The rescan's own entry is for the caller to remove. Both prints are of one archive (checked by the caller).
+ * @throws {Conflict} when the print is not set aside for a rescan, or the two are in one batch
+ */
+export async function useRescanScan(print: Item, rescan: Item, actor: { userId: string; requestId?: string | null }): Promise<AttachRescanResult> {
+  if (print.batchId === rescan.batchId) throw new Conflict('The rescan is in the same batch as the print; upload rescans into a batch of their own.', 'same_batch');
+  const original = await Original.findByPk(rescan.originalId);
+  if (!original) throw new NotFound('The rescan’s scan');
+  const result = await db().transaction(async (transaction) => {
+    const fresh = await Item.findByPk(print.id, { transaction, lock: transaction.LOCK.UPDATE });
+    if (!fresh || fresh.decision !== 'rescan') throw new Conflict(`Print ${print.seq} is not set aside for a rescan.`, 'not_set_aside');
+    return replaceScan(print.id, original, { userId: actor.userId, requestId: actor.requestId ?? undefined, name: rescan.originalName, sha256: original.sha256 }, transaction);
+  });
+  await enqueueAnalyse(print.id, (original.width ?? 0) * (original.height ?? 0));
   return result;
 }
 

@@ -182,6 +182,19 @@ export const ROUTE_CALLS: Record<string, RouteCall> = {
     status: (c) => (c.principal === 'editor' ? 200 : 404),
     check: (r, c) => (c.principal === 'editor' ? expect(JSON.stringify(r.body)).toContain(c.r.removalItem) : errorCode('not_found')(r)),
   },
+  'GET /api/items/[id]/same-picture': {
+    status: 200,
+    check: (r, c) => {
+      expect(r.body.thisPrint.id).toBe(c.r.item);
+      expect(Array.isArray(r.body.pairs)).toBe(true);
+    },
+  },
+  'POST /api/items/[id]/same-picture': {
+    // both prints stay: the pair is only marked as not the same picture (again by the owner)
+    request: (c) => ({ json: { otherId: c.r.rescanItem, choice: 'keep_both' } }),
+    status: 200,
+    check: (r) => expect(r.body).toMatchObject({ outcome: 'kept_both', keptItemId: null, removedItemId: null }),
+  },
   'POST /api/items/[id]/move': {
     params: { id: 'rescanItem' },
     // The editor moves it away, the owner moves it back.

@@ -80,6 +80,8 @@ export const ROUTE_RULES: Record<string, RouteRule> = {
   'GET /api/items/[id]/suggestions': { scope: 'archive', role: 'viewer', params: { id: 'item' } },
   'POST /api/items/[id]/suggestions': { scope: 'archive', role: 'viewer', params: { id: 'item' } },
   'POST /api/items/[id]/rescan': { scope: 'archive', role: 'editor', params: { id: 'item' } },
+  'GET /api/items/[id]/same-picture': { scope: 'archive', role: 'viewer', params: { id: 'item' } },
+  'POST /api/items/[id]/same-picture': { scope: 'archive', role: 'editor', params: { id: 'item' } },
   'GET /api/items/[id]/removal': { scope: 'archive', role: 'editor', params: { id: 'item' } },
   'POST /api/items/[id]/removal': { scope: 'archive', role: 'editor', params: { id: 'item' } },
   'POST /api/items/[id]/move': { scope: 'archive', role: 'editor', params: { id: 'item' } },
