@@ -29,6 +29,8 @@ export interface RescanRow {
   setAsideAt: string | null;
   setAsideBy: string | null;
   thumbnailUrl: string;
+  /** A scan uploaded as a rescan that looks like this print, waiting for the editor to confirm it (its print id). */
+  foundRescanId: string | null;
 }
 
 export interface RescanFilter {
@@ -44,7 +46,13 @@ export async function listRescans(archiveId: string, filter: RescanFilter = {}):
   if (filter.location !== undefined) where.push(filter.location === '' ? "coalesce(i.negative_location, '') = ''" : 'i.negative_location = :location');
   const rows = await db().query<Record<string, unknown>>(
     `SELECT i.id, i.batch_id, b.name AS batch_name, b.source_kind, b.source_label, i.seq, i.original_name, i.negative_available,
-            i.negative_location, i.rescan_note, i.caption, i.decided_at, coalesce(u.name, u.email) AS decided_by
+            i.negative_location, i.rescan_note, i.caption, i.decided_at, coalesce(u.name, u.email) AS decided_by,
+            (SELECT r.id FROM same_pictures sp
+               JOIN items r ON r.id = CASE WHEN sp.first_item_id = i.id THEN sp.second_item_id ELSE sp.first_item_id END
+               JOIN batches rb ON rb.id = r.batch_id
+              WHERE (sp.first_item_id = i.id OR sp.second_item_id = i.id) AND sp.outcome = 'open' AND rb.holds_rescans
+                AND r.state = 'ready' AND r.deleted_at IS NULL AND rb.deleted_at IS NULL
+              ORDER BY sp.distance LIMIT 1) AS found_rescan
        FROM items i JOIN batches b ON b.id = i.batch_id LEFT JOIN users u ON u.id = i.decided_by
       WHERE ${where.join(' AND ')}
       ORDER BY b.created_at, b.name, i.seq`,
@@ -65,6 +73,7 @@ export async function listRescans(archiveId: string, filter: RescanFilter = {}):
     setAsideAt: r.decided_at ? new Date(r.decided_at as string).toISOString() : null,
     setAsideBy: (r.decided_by as string | null) ?? null,
     thumbnailUrl: `/api/items/${r.id}/thumbnail`,
+    foundRescanId: (r.found_rescan as string | null) ?? null,
   }));
 }
 

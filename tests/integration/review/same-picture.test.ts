@@ -13,7 +13,7 @@ import { proposeSamePictures } from '../../../src/lib/server/same-picture.ts';
 import { storage } from '../../../src/lib/server/storage.ts';
 import { loadPhoto, PHOTOS } from '../../lab/photos.ts';
 import { rng } from '../../lab/simulator.ts';
-import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
+import { asSession, asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
 import type { Client } from '../../support/http.ts';
 import { batchOfScans, cleanRescan, fadedScan } from '../../support/same-picture-scans.ts';
 import { sha256 } from '../../support/scans.ts';
@@ -177,6 +177,11 @@ describe('a rescan from the negative finds its print', () => {
     const offer = (await editor.get(`/api/items/${pagodaRescan}/same-picture`)).body.pairs;
     expect(offer).toEqual([expect.objectContaining({ rescanOf: true, other: expect.objectContaining({ id: pagoda, setAside: true }) })]);
     expect((await editor.get(`/api/items/${pagoda}/same-picture`)).body.pairs).toEqual([expect.objectContaining({ rescanFound: true, other: expect.objectContaining({ id: pagodaRescan }) })]);
+    // the rescan list points the editor to it
+    const session = await asSession(a.editor);
+    const listed = await session.get('/rescans', { accept: 'text/html' });
+    expect(listed.status).toBe(200);
+    expect(listed.text).toContain(`data-found-rescan="${pagodaRescan}"`);
 
     // the boats' print was never set aside: its rescan is only "the same picture", and using it is refused with nothing changed
     expect((await editor.get(`/api/items/${boatsRescan}/same-picture`)).body.pairs).toEqual([expect.objectContaining({ rescanOf: false, other: expect.objectContaining({ id: boats }) })]);
@@ -207,6 +212,9 @@ describe('a rescan from the negative finds its print', () => {
     const list = await editor.get('/api/rescans.csv');
     expect(list.status).toBe(200);
     expect(list.text).not.toContain(pagoda);
+    const relisted = await session.get('/rescans', { accept: 'text/html' });
+    expect(relisted.status).toBe(200);
+    expect(relisted.text).not.toContain('data-found-rescan');
     // using it a second time is refused: the print is no longer set aside
     const again = await editor.post(`/api/items/${pagoda}/same-picture`, { otherId: boatsRescan, choice: 'use_rescan' });
     expect(again.status).toBe(409);
