@@ -29,6 +29,6 @@ export default defineConfig({
     // Page scripts stay files (allowed as 'self'): the content security policy allows no inline
     // script but Astro's island loader (src/lib/server/content-policy.ts).
     build: { assetsInlineLimit: 0 },
-    ssr: { external: ['sharp', 'pg', 'pg-hstore', 'sequelize', 'pg-boss', 'nodemailer'] },
+    ssr: { external: ['sharp', 'pg', 'pg-hstore', 'sequelize', 'pg-boss', 'nodemailer', 'pdfkit'] },
   },
 });

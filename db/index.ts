@@ -15,12 +15,14 @@ import { Person } from './models/Person.ts';
 import { ItemPerson } from './models/ItemPerson.ts';
 import { Suggestion } from './models/Suggestion.ts';
 import { ArchiveExport } from './models/ArchiveExport.ts';
+import { ContactSheet } from './models/ContactSheet.ts';
 
 export { User, Archive, Membership, Invitation, ApiToken, AuditEvent, VerificationToken, Batch, Original, Item, Correction };
 export { Person, ItemPerson, Suggestion, ArchiveExport };
+export { ContactSheet };
 
 /** Every model, in the order they are initialised. New models join this list. */
-const MODELS = [User, Archive, Membership, Invitation, ApiToken, AuditEvent, VerificationToken, Batch, Original, Item, Correction, Person, ItemPerson, Suggestion, ArchiveExport];
+const MODELS = [User, Archive, Membership, Invitation, ApiToken, AuditEvent, VerificationToken, Batch, Original, Item, Correction, Person, ItemPerson, Suggestion, ArchiveExport, ContactSheet];
 
 function associate() {
   Membership.belongsTo(User, { foreignKey: 'userId', as: 'user' });

@@ -12,6 +12,8 @@ ensure_debian_package --no-install-recommends chromium /usr/bin/chromium
 # outside checkers of the exports (tests/support/outside-checks.ts)
 ensure_debian_package --no-install-recommends libimage-exiftool-perl /usr/bin/exiftool
 ensure_debian_package --no-install-recommends unzip /usr/bin/unzip
+# the contact sheets' PDF is read back with poppler (pdfinfo, pdftotext, pdftoppm)
+ensure_debian_package --no-install-recommends poppler-utils /usr/bin/pdftotext
 ensure_debian_package libjemalloc2 /usr/lib/x86_64-linux-gnu/libjemalloc.so.2
 
 throwaway_stack "$root" test

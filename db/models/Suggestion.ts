@@ -14,6 +14,10 @@ export class Suggestion extends Model<InferAttributes<Suggestion>, InferCreation
   declare place: CreationOptional<string | null>;
   declare people: CreationOptional<string[] | null>;
   declare note: CreationOptional<string | null>;
+  /** Who wrote it on a contact sheet (a relative who may have no account); `suggestedBy` typed it in. */
+  declare relativeName: CreationOptional<string | null>;
+  /** The contact sheet it came back on. */
+  declare contactSheetId: CreationOptional<string | null>;
   declare state: CreationOptional<SuggestionState>;
   declare decidedBy: CreationOptional<string | null>;
   declare decidedAt: CreationOptional<Date | null>;
@@ -32,6 +36,8 @@ export class Suggestion extends Model<InferAttributes<Suggestion>, InferCreation
         place: DataTypes.STRING(300),
         people: DataTypes.JSONB,
         note: DataTypes.TEXT,
+        relativeName: DataTypes.STRING(200),
+        contactSheetId: DataTypes.UUID,
         state: { type: DataTypes.ENUM(...SUGGESTION_STATES), allowNull: false, defaultValue: 'pending' },
         decidedBy: DataTypes.UUID,
         decidedAt: DataTypes.DATE,

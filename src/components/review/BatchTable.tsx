@@ -313,6 +313,8 @@ export default function BatchTable({ batchId, initial, query, canDecide, otherBa
           <button type="button" className="btn-quiet py-1.5" disabled={busy || selected.size === 0} onClick={() => void decideSelected('undecided')} data-bulk="undecided">Back to not reviewed</button>
           <button type="button" className="btn-quiet py-1.5" disabled={busy || selected.size === 0 || otherBatches.length === 0} onClick={() => setPending(pending === 'move' ? null : 'move')} aria-expanded={pending === 'move'} data-bulk="move">Move to another batch…</button>
           <button type="button" className="btn-quiet py-1.5 text-danger-700" disabled={busy || selected.size === 0} onClick={() => setPending(pending === 'remove' ? null : 'remove')} aria-expanded={pending === 'remove'} data-bulk="remove">Remove…</button>
+          {/* the chosen prints travel in the address, which a server reads up to 16 KB: a few hundred ids */}
+          {selected.size > 0 && selected.size <= 300 && <a className="btn-quiet py-1.5" href={`/batches/${batchId}/sheets?items=${[...selected.keys()].join(',')}`} data-bulk="sheet">Contact sheet of these…</a>}
           {selected.size > 0 && <button type="button" className="btn-quiet py-1.5" onClick={() => setSelected(new Map())}>Clear selection</button>}
           {data.total > rows.length && (
             <button type="button" className="btn-quiet py-1.5" disabled={busy} onClick={() => void selectAllMatching()} data-select-matching>

@@ -126,6 +126,8 @@ export interface SuggestionView {
   people: string[] | null;
   note: string | null;
   suggestedBy: string | null;
+  /** For an answer written on a contact sheet: the member who typed it in for the relative. */
+  typedInBy?: string | null;
   createdAt: string;
   decidedAt: string | null;
 }

@@ -31,7 +31,9 @@ async function view(s: Suggestion): Promise<SuggestionView> {
     place: s.place ?? null,
     people: s.people ?? null,
     note: s.note ?? null,
-    suggestedBy: u ? (u.name ?? u.email) : null,
+    // a relative's answers on a contact sheet are theirs, whoever typed them in
+    suggestedBy: s.relativeName ?? (u ? (u.name ?? u.email) : null),
+    typedInBy: s.relativeName && u ? (u.name ?? u.email) : null,
     createdAt: s.createdAt.toISOString(),
     decidedAt: s.decidedAt ? s.decidedAt.toISOString() : null,
   };

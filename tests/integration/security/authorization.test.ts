@@ -81,6 +81,8 @@ beforeAll(async () => {
   const removableMembership = await Membership.create({ archiveId: a.id, userId: removable.id, role: 'viewer' });
   const invitation = await asToken(a.owner).post('/api/team/invitations', { email: `invited.${a.slug}@test.example`, role: 'viewer' });
   if (!invitation.body?.id) throw new Error(`setting up the invitation failed: ${invitation.status} ${invitation.text}`);
+  const sheet = await editor.post(`/api/batches/${batch}/sheets`, { scope: 'all' });
+  if (!sheet.body?.id) throw new Error(`setting up the contact sheet failed: ${sheet.status} ${sheet.text}`);
   let seed = 9200;
   r = {
     a,
@@ -100,6 +102,7 @@ beforeAll(async () => {
     randomId: randomUUID(),
     version: '1',
     inviteToken: 'no-such-invitation',
+    sheet: sheet.body.id,
     freshScan: async () => (await generatedScans(1, seed++, { width: 240, height: 160 }))[0].bytes,
   };
   await untilQuiet();

@@ -44,6 +44,8 @@ export interface WalkResources {
   randomId: string;
   version: string;
   inviteToken: string;
+  /** A contact sheet of the walk's batch, holding its print. */
+  sheet: string;
   /** New scans (bytes) for uploads and rescans, one per call. */
   freshScan(): Promise<Buffer>;
 }
@@ -293,6 +295,19 @@ export const ROUTE_CALLS: Record<string, RouteCall> = {
     status: (c) => (c.principal === 'other archive' ? 404 : 202),
     check: (r, c) => (c.principal === 'other archive' ? errorCode('not_found')(r) : expect(r.headers.get('location')).toBe(r.body.statusUrl)),
     background: true,
+  },
+  'GET /api/batches/[id]/sheets': { status: 200, check: (r, c) => expect(r.body.sheets.map((s: { id: string }) => s.id)).toContain(c.r.sheet) },
+  'POST /api/batches/[id]/sheets': {
+    request: () => ({ json: { scope: 'all', paper: 'letter' } }),
+    status: 201,
+    check: (r) => expect([r.headers.get('location'), r.body.paper]).toEqual([`/api/sheets/${r.body.id}`, 'letter']),
+  },
+  'GET /api/sheets/[id]': { status: 200, check: (r, c) => expect(r.body.prints.map((p: { itemId: string }) => p.itemId)).toContain(c.r.item) },
+  'GET /api/sheets/[id]/pdf': { status: 200, check: (r) => expect([r.headers.get('content-type'), r.raw.subarray(0, 5).toString('latin1')]).toEqual(['application/pdf', '%PDF-']) },
+  'POST /api/sheets/[id]/answers': {
+    request: (c) => ({ json: { itemId: c.r.item, relative: `Aunt of the ${c.principal}`, where: 'By the weir' } }),
+    status: 201,
+    check: (r) => expect(r.headers.get('location')).toBe(`/api/suggestions/${r.body.suggestionId}`),
   },
   'GET /api/exports/[id]': { status: 200, check: (r, c) => expect([r.body.id, r.body.state]).toEqual([c.r.export, 'ready']) },
   'GET /api/exports/[id]/download': { status: 200, check: (r) => expect(r.raw.subarray(0, 2).toString()).toBe('PK') },

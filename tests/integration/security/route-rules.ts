@@ -13,7 +13,7 @@
  */
 import type { Role } from '../../../src/lib/auth/roles.ts';
 
-export type ResourceName = 'batch' | 'item' | 'export' | 'suggestion' | 'membership' | 'removableMembership' | 'invitation' | 'randomId' | 'version' | 'inviteToken';
+export type ResourceName = 'batch' | 'item' | 'export' | 'suggestion' | 'membership' | 'removableMembership' | 'invitation' | 'randomId' | 'version' | 'inviteToken' | 'sheet';
 
 export interface RouteRule {
   scope: 'archive' | 'current' | 'user' | 'public';
@@ -92,5 +92,10 @@ export const ROUTE_RULES: Record<string, RouteRule> = {
   'GET /api/exports': { scope: 'current', role: 'editor' },
   'POST /api/exports': { scope: 'current', role: 'editor' },
   'GET /api/exports/[id]': { scope: 'archive', role: 'editor', params: { id: 'export' } },
+  'GET /api/batches/[id]/sheets': { scope: 'archive', role: 'editor', params: { id: 'batch' } },
+  'POST /api/batches/[id]/sheets': { scope: 'archive', role: 'editor', params: { id: 'batch' } },
+  'GET /api/sheets/[id]': { scope: 'archive', role: 'editor', params: { id: 'sheet' } },
+  'GET /api/sheets/[id]/pdf': { scope: 'archive', role: 'editor', params: { id: 'sheet' } },
+  'POST /api/sheets/[id]/answers': { scope: 'archive', role: 'editor', params: { id: 'sheet' } },
   'GET /api/exports/[id]/download': { scope: 'archive', role: 'editor', params: { id: 'export' } },
 };
