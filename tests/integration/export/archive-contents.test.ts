@@ -56,9 +56,9 @@ describe('progress that tells the truth', () => {
     expect(checking.length).toBeGreaterThan(0);
     // every print is packed before the check starts: never "2 of 3" while the bag is checked
     for (const s of checking) expect(s.progress_done).toBe(3);
-    // 3 JPEGs and photos.csv, from none checked to all
+    // 3 JPEGs, photos.csv and the 10 files of the pages (index.html, the stylesheet, 3 thumbnails, 3 years, the tin, the about page), from none checked to all
     expect(checking.map((s) => s.check_done)).toContain(0);
-    expect(checking.at(-1)).toMatchObject({ check_done: 4, check_total: 4 });
+    expect(checking.at(-1)).toMatchObject({ check_done: 14, check_total: 14 });
     // packing came first, the check after it, and the export was ready only once the check was done
     const firstCheck = steps.findIndex((s) => s.step === 'checking');
     expect(steps.slice(0, firstCheck).every((s) => s.step === 'packing' && s.state === 'running')).toBe(true);
@@ -66,7 +66,7 @@ describe('progress that tells the truth', () => {
   });
 
   it('says what was checked once the export is ready', () => {
-    expect(status).toMatchObject({ state: 'ready', verified: true, step: null, check: { done: 4, total: 4 } });
+    expect(status).toMatchObject({ state: 'ready', verified: true, step: null, check: { done: 14, total: 14 } });
   });
 });
 

@@ -92,8 +92,9 @@ describe('the exported bag follows RFC 8493', () => {
     const listed = new Map(lines.map((l) => { const i = l.indexOf(' '); return [l.slice(i + 1), l.slice(0, i)]; }));
     expect([...listed.keys()].sort()).toEqual(payload.sort());
     for (const p of payload) expect(listed.get(p), p).toBe(sha256(inBag(p)!));
-    // 3 corrected JPEGs, 3 originals, the CSV
-    expect(payload.length).toBe(7);
+    // 3 corrected JPEGs, 3 originals, the CSV; beside them the pages to look at it in a browser, listed like the rest
+    expect(payload.filter((p) => p !== 'data/index.html' && !p.startsWith('data/browse/')).length).toBe(7);
+    expect(listed.has('data/index.html')).toBe(true);
   });
 
   it('gives Payload-Oxum as total octets and count, and a YYYY-MM-DD Bagging-Date with the archive name', () => {
@@ -110,8 +111,9 @@ describe('the exported bag follows RFC 8493', () => {
     expect(path.basename(bag)).toBe(base);
     const payload = await sha256sumCheck(bag, 'manifest-sha256.txt');
     expect(payload.code, payload.out).toBe(0);
-    // one "<path>: OK" line per payload file: 3 corrected JPEGs, 3 originals, the CSV
-    expect(payload.stdout.trim().split('\n').filter((l) => l.endsWith(': OK'))).toHaveLength(7);
+    // one "<path>: OK" line per payload file: 3 corrected JPEGs, 3 originals, the CSV, and the 12 files of
+    // the pages (index.html, the stylesheet, 3 thumbnails, 3 years, 1 box, 2 people, the about page)
+    expect(payload.stdout.trim().split('\n').filter((l) => l.endsWith(': OK'))).toHaveLength(19);
     const tags = await sha256sumCheck(bag, 'tagmanifest-sha256.txt');
     expect(tags.code, tags.out).toBe(0);
     // and sha256sum notices a changed byte, naming the file
@@ -258,7 +260,7 @@ describe('npm run verify-bag', () => {
     expect((await verify(zipPath)).code).toBe(0);
     const r = await verify(await unpacked('clean'));
     expect(r.code).toBe(0);
-    expect(r.out).toMatch(/ok: 7 payload files/);
+    expect(r.out).toMatch(/ok: 19 payload files/);
   });
 
   it('catches one changed byte, one missing and one extra file, naming each, and exits non-zero', async () => {

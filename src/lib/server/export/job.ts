@@ -7,15 +7,17 @@
 import { createHash } from 'node:crypto';
 import { PassThrough } from 'node:stream';
 import { Op } from 'sequelize';
-import { Archive, ArchiveExport, Batch, Item, Original } from '../../../../db/index.ts';
+import { Archive, ArchiveExport, Batch, Item, Original, User } from '../../../../db/index.ts';
 import { checkBag, describeBagReport } from '../../archive/bagit.ts';
 import { spreadsheetCsv } from '../../archive/csv.ts';
 import { parsePrintDate, type PrintDate } from '../../archive/edtf.ts';
 import type { EmbeddedMetadata } from '../../archive/embed.ts';
+import { ArchiveSite } from '../../archive/html-archive.ts';
 import { DEFAULT_NAME_PATTERN, NameBook, baseName, batchSpanFolder, folderFor } from '../../archive/naming.ts';
 import { sourceInWords } from '../../archive/source.ts';
 import { ZipBagWriter, zipBagSource } from '../bag-files.ts';
 import { peopleOf } from '../captions.ts';
+import { smallCopyKey } from '../files.ts';
 import { storage } from '../storage.ts';
 import { exportedJpeg, scanDateOf } from './embedding.ts';
 import { notifyReady } from './mail.ts';
@@ -59,6 +61,8 @@ export async function runExport(exportId: string): Promise<void> {
   const pattern = opts.namePattern ?? DEFAULT_NAME_PATTERN;
   const names = new NameBook();
   const records: string[][] = [CSV_COLUMNS];
+  const requester = e.requestedBy ? await User.findByPk(e.requestedBy, { attributes: ['name', 'email'] }) : null;
+  const site = new ArchiveSite({ archiveName: archive.name, madeBy: requester ? (requester.name ?? requester.email) : null, madeAt: new Date(), timeZone: archive.timeZone, exportId: e.id, includeOriginals: Boolean(opts.includeOriginals) });
   let done = 0;
   let lastSaved = 0;
   let lastSavedAt = Date.now();
@@ -117,6 +121,12 @@ export async function runExport(exportId: string): Promise<void> {
           batch?.sourceKind ?? '', batch?.sourceLabel ?? '', item.envelope ?? '', item.backText ?? '', batch?.name ?? '', item.originalName, original?.sha256 ?? '', printOriginal?.sha256 ?? '',
           item.decision ?? '', item.id,
         ]);
+        // the browsable pages show the print's stored thumbnail as it is (no decode)
+        const thumbKey = smallCopyKey(item, 'thumbnail');
+        const thumb = thumbKey ? await store.readBuffer(thumbKey).catch(() => null) : null;
+        const thumbPath = thumb ? ArchiveSite.thumbnailPath(done) : null;
+        if (thumb && thumbPath) await bag.addPayload(thumbPath, thumb, { store: true });
+        site.add({ photoPath, thumbPath, seq: item.seq, caption: item.caption ?? null, dateWords: date?.words ?? '', folder, source: sourceInWords(batch?.sourceKind, batch?.sourceLabel, null), place: item.place ?? null, people: people.get(item.id) ?? [] });
         // Saving progress for every print would cost a write per print; a few per second are enough for the bar.
         if (done - lastSaved >= Math.max(1, Math.floor(e.itemIds.length / 100)) || Date.now() - lastSavedAt > 500) {
           lastSaved = done;
@@ -126,9 +136,10 @@ export async function runExport(exportId: string): Promise<void> {
       }
     }
     await bag.addPayload('photos.csv', Buffer.from(spreadsheetCsv(records), 'utf8'));
+    for (const [path, text] of site.files()) await bag.addPayload(path, Buffer.from(text, 'utf8'));
     await bag.finish([
       ['Source-Organization', archive.name],
-      ['External-Description', `Photographs of the ${archive.name}: corrected JPEGs with captions embedded (XMP), ${opts.includeOriginals ? 'the untouched scans alongside, ' : ''}and photos.csv listing every print.`],
+      ['External-Description', `Photographs of the ${archive.name}: corrected JPEGs with captions embedded (XMP), ${opts.includeOriginals ? 'the untouched scans alongside, ' : ''}photos.csv listing every print, and index.html to look at them in any web browser.`],
       ['External-Identifier', e.id],
       ['Bag-Software-Agent', 'Drawerlight'],
     ]);
