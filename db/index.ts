@@ -15,14 +15,15 @@ import { Person } from './models/Person.ts';
 import { ItemPerson } from './models/ItemPerson.ts';
 import { Suggestion } from './models/Suggestion.ts';
 import { ArchiveExport } from './models/ArchiveExport.ts';
+import { PrintBack } from './models/PrintBack.ts';
 import { ContactSheet } from './models/ContactSheet.ts';
 
 export { User, Archive, Membership, Invitation, ApiToken, AuditEvent, VerificationToken, Batch, Original, Item, Correction };
-export { Person, ItemPerson, Suggestion, ArchiveExport };
+export { Person, ItemPerson, Suggestion, ArchiveExport, PrintBack };
 export { ContactSheet };
 
 /** Every model, in the order they are initialised. New models join this list. */
-const MODELS = [User, Archive, Membership, Invitation, ApiToken, AuditEvent, VerificationToken, Batch, Original, Item, Correction, Person, ItemPerson, Suggestion, ArchiveExport, ContactSheet];
+const MODELS = [User, Archive, Membership, Invitation, ApiToken, AuditEvent, VerificationToken, Batch, Original, Item, Correction, Person, ItemPerson, Suggestion, ArchiveExport, PrintBack, ContactSheet];
 
 function associate() {
   Membership.belongsTo(User, { foreignKey: 'userId', as: 'user' });
@@ -43,6 +44,8 @@ function associate() {
   Item.hasMany(Suggestion, { foreignKey: 'itemId', as: 'suggestions' });
   Suggestion.belongsTo(Item, { foreignKey: 'itemId', as: 'item' });
   Suggestion.belongsTo(User, { foreignKey: 'suggestedBy', as: 'suggester' });
+  PrintBack.belongsTo(Item, { foreignKey: 'frontItemId', as: 'front' });
+  PrintBack.belongsTo(Original, { foreignKey: 'originalId', as: 'original' });
 }
 
 /** What the connection needs to know; the web server, the worker and the scripts pass their own (src/lib/server/database.ts). */

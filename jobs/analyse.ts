@@ -19,6 +19,7 @@ import {
   THUMBNAIL_SIDE,
   type AnalyseJob,
 } from '../src/lib/server/processing.ts';
+import { backKeys, isBackScan, keepAsBack, pairWaitingBacks } from '../src/lib/server/backs.ts';
 import { queue } from '../src/lib/server/queue.ts';
 import { proposeSamePictures } from '../src/lib/server/same-picture.ts';
 import { storage } from '../src/lib/server/storage.ts';
@@ -27,6 +28,7 @@ import { config } from '../src/lib/server/config.ts';
 import { eachAtMost } from './each-at-most.ts';
 import { enginePool } from './engine-pool.ts';
 import { PRESENCE_PREFIX, requeueInterrupted, WORKER_ID } from './presence.ts';
+import { enqueueReadBack } from './read-back.ts';
 import type { JobHandler } from './registry.ts';
 
 /** How a print whose scan cannot be decoded cleanly (corrupt or cut short) is marked, before the reason. */
@@ -84,6 +86,16 @@ async function claimAndAnalyse(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise
     const path = await store.localPath(claimed.storage_key);
     // the original's preview is made on demand (api/items/:id/preview?of=original): nothing shows it by default
     const result = await engine.analyseForReview(path, { previews: { preview: PREVIEW_SIDE, thumbnail: THUMBNAIL_SIDE, originalThumbnailOnly: true }, limits: uploadLimits() });
+    if (await isBackScan(item.id, result.back)) {
+      // the back of a print: kept with its small copies as scanned, never corrected or reviewed
+      const keys = { preview: result.previews.original.preview ? backKeys.preview(item.id) : null, thumbnail: backKeys.thumbnail(item.id) };
+      await Promise.all([keys.preview ? store.put(keys.preview, result.previews.original.preview!) : undefined, store.put(keys.thumbnail, result.previews.original.thumbnail!)]);
+      const backId = await keepAsBack({ itemId: item.id, originalId: item.originalId, measure: result.back, keys }, WORKER_ID);
+      // its text is read on a queue of its own, after the review's work
+      if (backId) await enqueueReadBack(backId);
+      await settleIfDone(item.batchId);
+      return;
+    }
     // The next free version: 1 for a new print, later for a print whose scan was replaced
     // (a rescan from the negative). A re-run before the commit below computes the same number
     // and overwrites the same files; after the commit the item is ready and the run stops above.
@@ -151,6 +163,8 @@ async function claimAndAnalyse(job: PgBoss.JobWithMetadata<AnalyseJob>): Promise
       throw err;
     }
   }
+  // a back that came before its front (by name) finds it now
+  await pairWaitingBacks(item.batchId);
   await settleIfDone(item.batchId);
 }
 

@@ -12,6 +12,7 @@ import { batchSettledHandler } from './batch-settled.ts';
 import { exportHandler } from './export.ts';
 import { purgeRemovedHandler } from './purge-removed.ts';
 import { mailHandler } from './mail.ts';
+import { readBackHandler } from './read-back.ts';
 
 /** One queue's handler as the worker registers it. */
 export interface JobHandler<N extends WorkedQueue = WorkedQueue> {
@@ -29,6 +30,7 @@ const BY_QUEUE: { [N in WorkedQueue]: JobHandler<N> } = {
   export: exportHandler,
   mail: mailHandler,
   'purge-removed': purgeRemovedHandler,
+  'read-back': readBackHandler,
 };
 
 /** Every handler the worker runs. */

@@ -14,6 +14,10 @@ export class Suggestion extends Model<InferAttributes<Suggestion>, InferCreation
   declare place: CreationOptional<string | null>;
   declare people: CreationOptional<string[] | null>;
   declare note: CreationOptional<string | null>;
+  /** Text for "Text on the back of the print". */
+  declare backText: CreationOptional<string | null>;
+  /** The back it was read from, for a suggestion the text recognition made (no person suggested it). */
+  declare printBackId: CreationOptional<string | null>;
   /** Who wrote it on a contact sheet (a relative who may have no account); `suggestedBy` typed it in. */
   declare relativeName: CreationOptional<string | null>;
   /** The contact sheet it came back on. */
@@ -36,6 +40,8 @@ export class Suggestion extends Model<InferAttributes<Suggestion>, InferCreation
         place: DataTypes.STRING(300),
         people: DataTypes.JSONB,
         note: DataTypes.TEXT,
+        backText: DataTypes.TEXT,
+        printBackId: DataTypes.UUID,
         relativeName: DataTypes.STRING(200),
         contactSheetId: DataTypes.UUID,
         state: { type: DataTypes.ENUM(...SUGGESTION_STATES), allowNull: false, defaultValue: 'pending' },

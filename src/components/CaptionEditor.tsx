@@ -284,6 +284,12 @@ export default function CaptionEditor({ batchId, items: initial, canEdit, pendin
           >
             <div>
               <img src={`/api/items/${current.id}/preview`} alt={`Print ${current.seq}`} className="w-full rounded border border-paper-200" />
+              {current.backPictureUrl && (
+                <figure className="mt-3" data-caption-back>
+                  <img src={current.backPictureUrl} alt={`Back of print ${current.seq}`} className="w-full rounded border border-paper-200" />
+                  <figcaption className="mt-1 text-xs text-ink-500">The back of the print, as scanned</figcaption>
+                </figure>
+              )}
               <p className="mt-2 text-xs text-ink-500">
                 {sourceInWords(current.source.kind, current.source.label) ?? 'Source not recorded'} · batch {current.source.batchName} · scan {current.originalName}
               </p>
@@ -348,12 +354,13 @@ export default function CaptionEditor({ batchId, items: initial, canEdit, pendin
               {mine.map((s) => (
                 <li key={s.id} className="flex flex-wrap items-start gap-3 py-2" data-suggestion={s.id}>
                   <div className="min-w-0 flex-1 text-sm">
-                    <p className="text-ink-500">{s.suggestedBy ?? 'Someone'} suggests:</p>
+                    <p className="text-ink-500">{s.fromBack ? 'Read from the back of the print (check it against the scan):' : `${s.suggestedBy ?? 'Someone'} suggests:`}</p>
                     {s.caption && <p>Caption: {s.caption}</p>}
+                    {s.backText && <p className="whitespace-pre-line" data-suggested-back-text>Text on the back: {s.backText}</p>}
                     {s.dateEdtf && <p>Date: {s.dateWords} <code className="text-xs">{s.dateEdtf}</code></p>}
                     {s.place && <p>Place: {s.place}</p>}
                     {s.people && <p>People: {s.people.join(', ')}</p>}
-                    {s.note && <p className="text-ink-700">“{s.note}”</p>}
+                    {s.note && (s.fromBack ? <p className="text-ink-700">{s.note}</p> : <p className="text-ink-700">“{s.note}”</p>)}
                   </div>
                   <button type="button" className="btn-primary py-1" onClick={() => void decide(s, 'accept')}>Accept</button>
                   <button type="button" className="btn-quiet py-1" onClick={() => void decide(s, 'decline')}>Decline</button>

@@ -10,6 +10,7 @@ import CompareView from './CompareView.tsx';
 import DecisionBar from './DecisionBar.tsx';
 import HelpOverlay from './HelpOverlay.tsx';
 import { EDITING_ACTIONS, useReview, type QueueEntry } from './store.ts';
+import { backPictureUrl } from '../../lib/backs/types.ts';
 
 interface Props {
   item: ItemDetail;
@@ -175,7 +176,15 @@ export default function ReviewWorkbench({ item: initial, queue: initialQueue, ca
           </div>
           <DecisionBar />
         </div>
-        <AdjustPanel />
+        <div className="min-w-0 space-y-4">
+          <AdjustPanel />
+          {shown.back && (
+            <figure className="card p-3" data-print-back>
+              <img src={backPictureUrl(shown.back, 'preview')} alt={`Back of print ${shown.seq}`} className="w-full rounded border border-paper-200" />
+              <figcaption className="mt-1 text-xs text-ink-500">The back of the print, as scanned ({shown.back.originalName})</figcaption>
+            </figure>
+          )}
+        </div>
       </div>
       <HelpOverlay />
     </div>

@@ -110,6 +110,8 @@ export interface ItemMetadata {
   /** Where the print came from: the batch's box, drawer, album or envelope. */
   source: { kind: string; label: string; batchName: string };
   thumbnailUrl: string;
+  /** The review-size copy of the print's back as scanned, when a back is paired with it. */
+  backPictureUrl?: string | null;
   pendingSuggestions: number;
   lockVersion: number;
 }
@@ -126,6 +128,10 @@ export interface SuggestionView {
   people: string[] | null;
   note: string | null;
   suggestedBy: string | null;
+  /** Text for "Text on the back of the print". */
+  backText?: string | null;
+  /** Read from the scan of the print's back (no person suggested it). */
+  fromBack?: boolean;
   /** For an answer written on a contact sheet: the member who typed it in for the relative. */
   typedInBy?: string | null;
   createdAt: string;

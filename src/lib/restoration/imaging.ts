@@ -18,6 +18,7 @@ import { analysePixels, samplePixels, type Analysis, type ReducedPixels } from '
 import { applyCorrection, applyGeometry, buildChannelLuts, correctionSchema, geometryPlan, hasGeometry, isIdentity, type Correction } from './correction';
 import { ScanRejected } from './errors';
 import { ANALYSIS_SIDE, DEFAULT_LIMITS, reviewCopySide, type ScanFormat } from './scan-sizes';
+import { measureBack, type BackMeasure } from '../backs/paper-back';
 import { fingerprint } from '../images/fingerprint';
 
 export { ScanRejected } from './errors';
@@ -641,6 +642,8 @@ export interface ReviewCopiesResult {
   /** The proposed correction, which the corrected small copies show. */
   correction: Correction;
   previews: { original: PreviewSet; corrected: PreviewSet };
+  /** Whether the scan looks like the back of a print (src/lib/backs/paper-back.ts); a back's original preview is always made. */
+  back: BackMeasure;
   /**
    * The picture fingerprint of the same copy (src/lib/images/fingerprint.ts), to find other scans
    * of the picture; null for a scan too small to give one.
@@ -665,8 +668,10 @@ export async function analyseForReview(input: string | Buffer, options: ReviewCo
   const small = await decodeReduced(file, probe, side, 'linear');
   const analysis = analysePixels(small);
   const correction = analysis.proposed;
-  const previews = await smallCopies(small, correction, options.previews);
-  return { probe, analysis, correction, previews, fingerprint: fingerprintOf(small) };
+  // about 100 000 pixels measured: the verdict does not change with sampling (tests/unit/backs)
+  const back = measureBack(small.data as Uint8Array, small.width, small.height, small.channels, Math.max(1, Math.floor((small.width * small.height) / 100_000)));
+  const previews = await smallCopies(small, correction, back.back ? { ...options.previews, originalThumbnailOnly: false } : options.previews);
+  return { probe, analysis, correction, previews, back, fingerprint: fingerprintOf(small) };
 }
 
 /**

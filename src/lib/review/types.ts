@@ -15,6 +15,8 @@ export interface CorrectionVersion {
 /** Everything the print review view needs about one print. */
 export interface ItemDetail {
   id: string;
+  /** The scan of the print's back, when one is paired with it (shown as scanned, never corrected). */
+  back?: { id: string; batchId: string; originalName: string } | null;
   archiveId: string;
   batchId: string;
   batchName: string;

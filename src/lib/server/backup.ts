@@ -24,7 +24,7 @@ async function carriedFolders(storageDir: string): Promise<string[]> {
 
 /**
  * Every storage key the database names: originals, each item's small copies and render (the
- * thumbnail and preview of the correction it shows included), finished exports' zips.
+ * thumbnail and preview of the correction it shows included), the small copies of backs, finished exports' zips.
  */
 export async function keysNamedByDatabase(): Promise<string[]> {
   const rows = await db().query<{ id: string; thumb_key: string | null; preview_key: string | null; render_key: string | null; preview_version: number | null }>(
@@ -40,7 +40,8 @@ export async function keysNamedByDatabase(): Promise<string[]> {
     }
   }
   const others = await db().query<{ key: string }>(
-    `SELECT storage_key AS key FROM originals UNION ALL SELECT zip_key AS key FROM exports WHERE state = 'ready' AND zip_key IS NOT NULL`,
+    `SELECT storage_key AS key FROM originals UNION ALL SELECT zip_key AS key FROM exports WHERE state = 'ready' AND zip_key IS NOT NULL
+     UNION ALL SELECT thumb_key AS key FROM print_backs WHERE thumb_key IS NOT NULL UNION ALL SELECT preview_key AS key FROM print_backs WHERE preview_key IS NOT NULL`,
     { type: QueryTypes.SELECT },
   );
   for (const r of others) keys.add(r.key);

@@ -11,6 +11,8 @@ import { recordAudit } from './audit.ts';
 import { batchForCaller } from './batches.ts';
 import { InvalidInput } from './errors.ts';
 import { smallCopyUrl } from './files.ts';
+import { backsOfItems } from './backs.ts';
+import { backPictureUrl } from '../backs/types.ts';
 import { loadItemFor } from './item-access.ts';
 
 /** Names of the people tagged on each of `itemIds`, in caption order. */
@@ -88,7 +90,7 @@ export async function itemMetadata(item: Item): Promise<ItemMetadata> {
 export async function metadataOf(items: Item[]): Promise<ItemMetadata[]> {
   const ids = items.map((i) => i.id);
   const batchIds = [...new Set(items.map((i) => i.batchId))];
-  const [people, batches, pending] = await Promise.all([
+  const [people, batches, pending, backs] = await Promise.all([
     peopleOf(ids),
     Batch.findAll({ where: { id: batchIds }, attributes: ['id', 'name', 'sourceKind', 'sourceLabel'] }),
     ids.length
@@ -97,6 +99,7 @@ export async function metadataOf(items: Item[]): Promise<ItemMetadata[]> {
           type: QueryTypes.SELECT,
         })
       : Promise.resolve([]),
+    backsOfItems(ids),
   ]);
   const batchOf = new Map(batches.map((b) => [b.id, b]));
   const pendingOf = new Map(pending.map((r) => [r.item_id, Number(r.n)]));
@@ -116,6 +119,7 @@ export async function metadataOf(items: Item[]): Promise<ItemMetadata[]> {
       envelope: i.envelope ?? null,
       source: { kind: b?.sourceKind ?? 'other', label: b?.sourceLabel ?? '', batchName: b?.name ?? '' },
       thumbnailUrl: smallCopyUrl(i, 'thumbnail'),
+      backPictureUrl: backs.has(i.id) ? backPictureUrl(backs.get(i.id)!, 'preview') : null,
       pendingSuggestions: pendingOf.get(i.id) ?? 0,
       lockVersion: i.lockVersion,
     };

@@ -25,6 +25,14 @@ export interface BatchSettledJob {
 export interface ExportJob {
   exportId: string;
 }
+/**
+ * Read the text on one print's back. `waited` counts how often it was put off because prints
+ * were waiting for their analysis (the review comes first).
+ */
+export interface ReadBackJob {
+  backId: string;
+  waited?: number;
+}
 /** The hourly purge of what was removed over 30 days ago carries nothing. */
 export type PurgeRemovedJob = Record<string, never>;
 
@@ -36,6 +44,7 @@ export interface JobData {
   export: ExportJob;
   mail: Mail;
   'purge-removed': PurgeRemovedJob;
+  'read-back': ReadBackJob;
   /** Whatever a job that failed for good carried. */
   'dead-letter': unknown;
 }
@@ -63,6 +72,8 @@ export const QUEUES: { [N in QueueName]: QueueSpec<N> } = {
   // and a half or more); the lease covers a slow SMTP server's timeouts, so a send is not handed out twice.
   mail: { name: 'mail', options: { retryLimit: 12, retryDelay: 30, retryBackoff: true, expireInSeconds: 600, retentionDays: 14, deadLetter: DEAD_LETTER_QUEUE } },
   'purge-removed': { name: 'purge-removed', options: { retryLimit: 3, retryDelay: 60, retryBackoff: true, deadLetter: DEAD_LETTER_QUEUE } },
+  // a few seconds of OCR a back; a back that cannot be read is left unread, with nothing lost
+  'read-back': { name: 'read-back', options: { retryLimit: 3, retryDelay: 30, retryBackoff: true, expireInSeconds: 600, retentionDays: 7, deadLetter: DEAD_LETTER_QUEUE } },
   [DEAD_LETTER_QUEUE]: { name: DEAD_LETTER_QUEUE, options: { retentionDays: 30 } },
 };
 
@@ -72,3 +83,4 @@ export const BATCH_SETTLED_QUEUE = QUEUES['batch-settled'];
 export const EXPORT_QUEUE = QUEUES.export;
 export const MAIL_QUEUE = QUEUES.mail;
 export const PURGE_REMOVED_QUEUE = QUEUES['purge-removed'];
+export const READ_BACK_QUEUE = QUEUES['read-back'];

@@ -10,6 +10,7 @@ import { Batch, Item, db } from '../../../db/index.ts';
 import { recordAudit } from './audit.ts';
 import { Conflict, InvalidInput, NotFound } from './errors.ts';
 import { derivedKeys } from './processing.ts';
+import { backKeys } from './backs.ts';
 import { storage } from './storage.ts';
 
 /** How long a removed print or batch can be restored before the purge deletes it. */
@@ -106,7 +107,7 @@ async function nextSeq(batchId: string, transaction: import('sequelize').Transac
 
 /**
  * Moves a print to another batch of the same archive, where it takes the next number. Its
- * corrections, decision and captions go with it.
+ * corrections, decision, captions and back go with it.
  * @throws {Conflict} when the target batch already holds the same scan
  */
 export async function moveItem(item: Item, target: Batch, actor: Actor): Promise<{ id: string; batchId: string; seq: number }> {
@@ -119,6 +120,8 @@ export async function moveItem(item: Item, target: Batch, actor: Actor): Promise
     const from = { batchId: item.batchId, seq: item.seq };
     const seq = await nextSeq(target.id, transaction);
     await item.update({ batchId: target.id, seq, uploadKey: null }, { transaction });
+    // its back goes with it
+    await db().query('UPDATE print_backs SET batch_id = :to, upload_key = NULL, updated_at = now() WHERE front_item_id = :id', { replacements: { to: target.id, id: item.id }, transaction });
     await recordAudit(
       { archiveId: item.archiveId, actorId: actor.userId, action: 'item.move', subjectType: 'item', subjectId: item.id, details: { from, to: { batchId: target.id, seq } }, requestId: actor.requestId },
       transaction,
@@ -201,7 +204,14 @@ export async function purgeRemoved(now = new Date()): Promise<{ prints: number; 
   );
   const originalIds = [...new Set(doomed.flatMap((i) => [i.original_id, i.print_original_id]).filter((x): x is string => !!x))];
   const batchRows = await db().query<{ id: string }>('SELECT id FROM batches WHERE deleted_at IS NOT NULL AND deleted_at < :cutoff', { replacements: { cutoff }, type: QueryTypes.SELECT });
+  // the backs of purged prints, and every back of a purged batch, go with them
+  const backs = await db().query<{ id: string; original_id: string }>(
+    'SELECT id, original_id FROM print_backs WHERE front_item_id IN (:items) OR batch_id IN (:batches)',
+    { replacements: { items: doomed.length ? doomed.map((i) => i.id) : [null], batches: batchRows.length ? batchRows.map((b) => b.id) : [null] }, type: QueryTypes.SELECT },
+  );
+  for (const b of backs) if (!originalIds.includes(b.original_id)) originalIds.push(b.original_id);
   await db().transaction(async (transaction) => {
+    if (backs.length) await db().query('DELETE FROM print_backs WHERE id IN (:ids)', { replacements: { ids: backs.map((b) => b.id) }, transaction });
     if (doomed.length) await db().query('DELETE FROM items WHERE id IN (:ids)', { replacements: { ids: doomed.map((i) => i.id) }, transaction });
     if (batchRows.length) await db().query('DELETE FROM batches WHERE id IN (:ids)', { replacements: { ids: batchRows.map((b) => b.id) }, transaction });
   });
@@ -211,11 +221,13 @@ export async function purgeRemoved(now = new Date()): Promise<{ prints: number; 
     for (let v = 1; v <= (i.current_version ?? 0); v++) keys.push(derivedKeys.render(i.id, v), derivedKeys.renderPreview(i.id, v), derivedKeys.renderThumbnail(i.id, v));
     for (const key of keys) await store.remove(key).catch(() => undefined);
   }
+  for (const b of backs) for (const key of [backKeys.preview(b.id), backKeys.thumbnail(b.id)]) await store.remove(key).catch(() => undefined);
   // An original goes only once no print row holds it; the row first (items refer to it), then its file.
   let originals = 0;
   for (const id of originalIds) {
     const [gone] = await db().query<{ storage_key: string }>(
-      `DELETE FROM originals o WHERE o.id = :id AND NOT EXISTS (SELECT 1 FROM items i WHERE i.original_id = o.id OR i.print_original_id = o.id) RETURNING o.storage_key`,
+      `DELETE FROM originals o WHERE o.id = :id AND NOT EXISTS (SELECT 1 FROM items i WHERE i.original_id = o.id OR i.print_original_id = o.id)
+         AND NOT EXISTS (SELECT 1 FROM print_backs pb WHERE pb.original_id = o.id) RETURNING o.storage_key`,
       { replacements: { id }, type: QueryTypes.SELECT },
     );
     if (!gone) continue;

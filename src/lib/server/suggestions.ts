@@ -31,6 +31,8 @@ async function view(s: Suggestion): Promise<SuggestionView> {
     place: s.place ?? null,
     people: s.people ?? null,
     note: s.note ?? null,
+    backText: s.backText ?? null,
+    fromBack: s.printBackId !== null && s.printBackId !== undefined,
     // a relative's answers on a contact sheet are theirs, whoever typed them in
     suggestedBy: s.relativeName ?? (u ? (u.name ?? u.email) : null),
     typedInBy: s.relativeName && u ? (u.name ?? u.email) : null,
@@ -106,6 +108,7 @@ export async function decideSuggestion(locals: App.Locals, suggestionId: string,
       if (sug.caption) change.caption = sug.caption;
       if (sug.dateEdtf) change.dateEdtf = sug.dateEdtf;
       if (sug.place) change.place = sug.place;
+      if (sug.backText) change.backText = sug.backText;
       if (sug.people && sug.people.length) change.people = sug.people;
       // Suggested people join those already tagged: a relative names whom they recognise, not everyone.
       await applyMetadata(item, change, userId, transaction, 'add');

@@ -140,6 +140,10 @@ export const ROUTE_CALLS: Record<string, RouteCall> = {
     background: true,
   },
   'GET /api/batches/[id]/metadata': { status: 200, check: (r, c) => expect(r.body.items.map((i: { id: string }) => i.id)).toContain(c.r.item) },
+  // the walk's batch holds no backs: a call past authorization finds none
+  'GET /api/batches/[id]/backs': { status: 200, check: (r) => expect(r.body.backs).toEqual([]) },
+  'POST /api/batches/[id]/backs': { request: (c) => ({ json: { backId: c.r.randomId, printId: c.r.item } }), status: 404, check: errorCode('not_found') },
+  'GET /api/batches/[id]/backs/[back]': { status: 404, check: errorCode('not_found') },
   'PATCH /api/batches/[id]/metadata': {
     request: (c) => ({ json: { itemIds: [c.r.item], set: { place: `By the weir (${c.principal})` } } }),
     status: 200,

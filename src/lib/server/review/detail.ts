@@ -1,6 +1,6 @@
 /** The detail of one print as the review workbench shows it. */
 import { Op } from 'sequelize';
-import { Batch, Item, Original } from '../../../../db/index.ts';
+import { Batch, Item, Original, PrintBack } from '../../../../db/index.ts';
 import type { Analysis } from '../../restoration/analysis.ts';
 import type { Decision } from '../../review/index.ts';
 import type { ItemDetail } from '../../review/types.ts';
@@ -11,13 +11,14 @@ export type { CorrectionVersion, ItemDetail, ItemRow } from '../../review/types.
 
 /** The detail of one print: analysis, current and proposed correction, history, decision, neighbours in its batch. */
 export async function itemDetail(item: Item): Promise<ItemDetail> {
-  const [batch, original, corrections, decidedBy, previous, next] = await Promise.all([
+  const [batch, original, corrections, decidedBy, previous, next, back] = await Promise.all([
     Batch.findByPk(item.batchId, { attributes: ['name'] }),
     Original.findByPk(item.originalId, { attributes: ['width', 'height'] }),
     versionsOf(item.id),
     nameOf(item.decidedBy),
     Item.findOne({ where: { batchId: item.batchId, seq: { [Op.lt]: item.seq } }, order: [['seq', 'DESC']], attributes: ['id'] }),
     Item.findOne({ where: { batchId: item.batchId, seq: { [Op.gt]: item.seq } }, order: [['seq', 'ASC']], attributes: ['id'] }),
+    PrintBack.findOne({ where: { frontItemId: item.id }, attributes: ['id', 'batchId', 'originalName'] }),
   ]);
   const analysis = (item.analysis as Analysis | null) ?? null;
   const current = corrections.find((c) => c.version === item.currentVersion)?.params ?? corrections.at(-1)?.params ?? null;
@@ -25,6 +26,7 @@ export async function itemDetail(item: Item): Promise<ItemDetail> {
   const proposed = corrections.findLast((c) => c.origin === 'proposed' || c.origin === 'pooled')?.params ?? parseParams(analysis?.proposed) ?? null;
   return {
     id: item.id,
+    back: back ? { id: back.id, batchId: back.batchId, originalName: back.originalName } : null,
     archiveId: item.archiveId,
     batchId: item.batchId,
     batchName: batch?.name ?? '',
