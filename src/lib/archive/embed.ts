@@ -21,6 +21,8 @@ export interface EmbeddedMetadata {
   backText: string | null;
   /** When the print was scanned (EXIF form), if known. */
   scannedAt?: string | null;
+  /** The file name of the scan of the print's back, beside this file in the export, if there is one. */
+  backFile?: string | null;
 }
 
 const NS = {
@@ -68,6 +70,7 @@ export function buildXmp(m: EmbeddedMetadata): string {
     simple('drawerlight:DateEDTF', m.date?.edtf ?? null),
     simple('drawerlight:DateInWords', m.date?.words ?? null),
     simple('drawerlight:TextOnBack', m.backText),
+    simple('drawerlight:BackScanFile', m.backFile),
   ].join('');
   const xmlns = Object.entries(NS)
     .filter(([k]) => k !== 'x' && k !== 'rdf')

@@ -2,16 +2,20 @@
  * Backs of prints through the real upload endpoint, database and queue: a back is kept as an
  * original, paired with its front (by file name, by feed order), never analysed as a print nor
  * counted as one; its text read on a queue of its own and suggested to its print; the batch
- * page's pairing by hand, and its refusals, which change nothing.
+ * page's pairing by hand, and its refusals, which change nothing; the back beside its front in the export.
  * Backs are generated (tests/support/back-scans.ts), fronts are the demo's invented scenes.
  */
 import { existsSync } from 'node:fs';
+import fs from 'node:fs/promises';
+import os from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { Item, Original, PrintBack, Suggestion, closeDb } from '../../../db/index.ts';
 import { generatedBack } from '../../support/back-scans.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
 import type { Client } from '../../support/http.ts';
+import { runTool, sha256sumCheck, unpackWithUnzip } from '../../support/outside-checks.ts';
+import { decide, downloadBytes, waitExport } from '../export/helpers.ts';
 import { createBatch, generatedScans, sha256, waitSettled } from '../../support/scans.ts';
 import { until } from '../../support/until.ts';
 
@@ -177,3 +181,36 @@ describe('pairing by hand', () => {
   });
 });
 
+describe('backs in the export', () => {
+  it('puts each back beside its front, names it in the front and in photos.csv, and lists it in the manifest', async () => {
+    for (const print of await Item.findAll({ where: { batchId } })) await decide(editor, print.id, 'accepted');
+    const r = await editor.post('/api/exports', { selection: { kind: 'batch', batchId } });
+    expect(r.status, r.text).toBe(202);
+    const status = await waitExport(editor, r.headers.get('location')!);
+    expect(status.state, status.failureReason).toBe('ready');
+    const dl = await downloadBytes(editor, status.downloadUrl);
+    const bag = await unpackWithUnzip(dl.bytes, await fs.mkdtemp(path.join(os.tmpdir(), 'backs-export-')));
+    const files = (await fs.readdir(path.join(bag, 'data/photos'), { recursive: true })).map(String).filter((f) => /\.(jpg|png|tif)$/.test(f)).sort();
+    const backs = files.filter((f) => /_back\.jpg$/.test(f));
+    // three prints kept their backs (the fourth was unpaired by hand above)
+    expect(backs).toHaveLength(3);
+    for (const b of backs) {
+      const front = b.replace(/_back\.jpg$/, '.jpg');
+      expect(files).toContain(front);
+      // the back goes out as it was scanned: the original's own bytes
+      const bytes = await fs.readFile(path.join(bag, 'data/photos', b));
+      expect(await PrintBack.count({ where: { batchId }, include: [{ association: 'original', where: { sha256: sha256(bytes) } }] })).toBe(1);
+      const named = await runTool('exiftool', ['-s3', '-XMP-drawerlight:BackScanFile', path.join(bag, 'data/photos', front)]);
+      expect(named.stdout.trim()).toBe(path.basename(b));
+    }
+    const csv = await fs.readFile(path.join(bag, 'data/photos.csv'), 'utf8');
+    const [header, ...rows] = csv.replace(/^\ufeff/, '').trim().split(/\r?\n/);
+    const at = header.split(',').indexOf('back_file');
+    expect(at).toBeGreaterThan(0);
+    expect(rows.filter((row) => /_back\.jpg/.test(row))).toHaveLength(3);
+    const manifest = await fs.readFile(path.join(bag, 'manifest-sha256.txt'), 'utf8');
+    for (const b of backs) expect(manifest).toContain(`data/photos/${b}`);
+    const check = await sha256sumCheck(bag, 'manifest-sha256.txt');
+    expect(check.code, check.out).toBe(0);
+  }, 300_000);
+});

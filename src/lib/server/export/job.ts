@@ -16,6 +16,7 @@ import { ArchiveSite } from '../../archive/html-archive.ts';
 import { DEFAULT_NAME_PATTERN, NameBook, baseName, batchSpanFolder, folderFor } from '../../archive/naming.ts';
 import { sourceInWords } from '../../archive/source.ts';
 import { ZipBagWriter, zipBagSource } from '../bag-files.ts';
+import { backsOfItems } from '../backs.ts';
 import { peopleOf } from '../captions.ts';
 import { smallCopyKey } from '../files.ts';
 import { storage } from '../storage.ts';
@@ -25,7 +26,7 @@ import { bagBaseName, exportKey } from './status.ts';
 
 const CSV_COLUMNS = [
   'file', 'original_file', 'print_scan_file', 'seq', 'caption', 'date_edtf', 'date_in_words', 'place', 'people', 'source_kind', 'source_label', 'envelope',
-  'text_on_back', 'batch', 'scan_file_name', 'original_sha256', 'print_scan_sha256', 'decision', 'item_id',
+  'text_on_back', 'batch', 'scan_file_name', 'original_sha256', 'print_scan_sha256', 'decision', 'item_id', 'back_file', 'back_sha256',
 ];
 
 function dateOf(edtf: string | null | undefined): PrintDate | null {
@@ -61,6 +62,8 @@ export async function runExport(exportId: string): Promise<void> {
   const pattern = opts.namePattern ?? DEFAULT_NAME_PATTERN;
   const names = new NameBook();
   const records: string[][] = [CSV_COLUMNS];
+  // each print's file names, claimed once, when its JPEG is made (the JPEG names its back's file)
+  const placed = new Map<string, { date: PrintDate | null; folder: string; nameBase: string; photoPath: string; backPath: string }>();
   const requester = e.requestedBy ? await User.findByPk(e.requestedBy, { attributes: ['name', 'email'] }) : null;
   const site = new ArchiveSite({ archiveName: archive.name, madeBy: requester ? (requester.name ?? requester.email) : null, madeAt: new Date(), timeZone: archive.timeZone, exportId: e.id, includeOriginals: Boolean(opts.includeOriginals) });
   let done = 0;
@@ -75,12 +78,30 @@ export async function runExport(exportId: string): Promise<void> {
       const byId = new Map(items.map((i) => [i.id, i]));
       const people = await peopleOf(ids);
       const batches = new Map((await Batch.findAll({ where: { id: [...new Set(items.map((i) => i.batchId))] } })).map((b) => [b.id, b]));
-      const originalIds = [...new Set(items.flatMap((i) => [i.originalId, i.printOriginalId ?? null]).filter((x): x is string => Boolean(x)))];
+      const backs = await backsOfItems(ids);
+      const originalIds = [...new Set(items.flatMap((i) => [i.originalId, i.printOriginalId ?? null, backs.get(i.id)?.originalId ?? null]).filter((x): x is string => Boolean(x)))];
       const originals = new Map((await Original.findAll({ where: { id: originalIds } })).map((o) => [o.id, o]));
+      const placeOf = (item: Item) => {
+        let p = placed.get(item.id);
+        if (p) return p;
+        const batch = batches.get(item.batchId);
+        const date = dateOf(item.dateEdtf);
+        const folder = folderFor(date, batch ? batchSpanFolder(dateOf(batch.dateFrom), dateOf(batch.dateTo)) : null);
+        const nameBase = baseName(pattern, { date, caption: item.caption ?? null, seq: item.seq, batch: batch?.name ?? null, originalName: item.originalName });
+        const photoPath = names.claim(`photos/${folder}`, nameBase, '.jpg');
+        // the back of the print, as scanned, beside it: "… 0007.jpg" and "… 0007_back.jpg"
+        const back = backs.get(item.id);
+        const backOriginal = back ? originals.get(back.originalId) : undefined;
+        const backPath = backOriginal ? names.claim(`photos/${folder}`, `${photoPath.slice(photoPath.lastIndexOf('/') + 1, -'.jpg'.length)}_back`, EXT[backOriginal.mime] ?? '.bin') : '';
+        p = { date, folder, nameBase, photoPath, backPath };
+        placed.set(item.id, p);
+        return p;
+      };
       const metaOf = (item: Item): EmbeddedMetadata => {
         const batch = batches.get(item.batchId);
         const source = sourceInWords(batch?.sourceKind, batch?.sourceLabel, item.envelope);
-        return { caption: item.caption ?? null, date: dateOf(item.dateEdtf), place: item.place ?? null, people: people.get(item.id) ?? [], source, backText: item.backText ?? null, scannedAt: scanDateOf(originals.get(item.originalId) ?? null) };
+        const backFile = placeOf(item).backPath.split('/').pop() || null;
+        return { caption: item.caption ?? null, date: dateOf(item.dateEdtf), place: item.place ?? null, people: people.get(item.id) ?? [], source, backText: item.backText ?? null, scannedAt: scanDateOf(originals.get(item.originalId) ?? null), backFile };
       };
       const encode = (id: string | undefined): Promise<Buffer | null> => {
         const it = id ? byId.get(id) : undefined;
@@ -101,11 +122,10 @@ export async function runExport(exportId: string): Promise<void> {
         const batch = batches.get(item.batchId);
         const original = originals.get(item.originalId) ?? null;
         const printOriginal = item.printOriginalId ? (originals.get(item.printOriginalId) ?? null) : null;
-        const date = dateOf(item.dateEdtf);
-        const folder = folderFor(date, batch ? batchSpanFolder(dateOf(batch.dateFrom), dateOf(batch.dateTo)) : null);
-        const nameBase = baseName(pattern, { date, caption: item.caption ?? null, seq: item.seq, batch: batch?.name ?? null, originalName: item.originalName });
-        const photoPath = names.claim(`photos/${folder}`, nameBase, '.jpg');
+        const { date, folder, nameBase, photoPath, backPath } = placeOf(item);
         await bag.addPayload(photoPath, jpeg, { store: true });
+        const backOriginal = backPath ? originals.get(backs.get(item.id)!.originalId) : undefined;
+        if (backOriginal) await bag.addPayload(backPath, store.read(backOriginal.storageKey), { store: true });
         let originalPath = '';
         let printPath = '';
         if (opts.includeOriginals && original) {
@@ -119,7 +139,7 @@ export async function runExport(exportId: string): Promise<void> {
         records.push([
           photoPath, originalPath, printPath, String(item.seq), item.caption ?? '', item.dateEdtf ?? '', date?.words ?? '', item.place ?? '', (people.get(item.id) ?? []).join('; '),
           batch?.sourceKind ?? '', batch?.sourceLabel ?? '', item.envelope ?? '', item.backText ?? '', batch?.name ?? '', item.originalName, original?.sha256 ?? '', printOriginal?.sha256 ?? '',
-          item.decision ?? '', item.id,
+          item.decision ?? '', item.id, backOriginal ? backPath : '', backOriginal?.sha256 ?? '',
         ]);
         // the browsable pages show the print's stored thumbnail as it is (no decode)
         const thumbKey = smallCopyKey(item, 'thumbnail');
