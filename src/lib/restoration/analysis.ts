@@ -54,6 +54,8 @@ export interface AgeingEstimate {
   /** Uncertainty of -ln k and of s (standard deviations). */
   spreadK: number;
   spreadS: number;
+  /** How far -ln k may be from its truth (standard deviation), which weakens the strength; absent in analyses made before it existed. */
+  sdK?: number;
   /** Stain measured on a found border, which the batch does not override. */
   borderStain: boolean;
 }
@@ -508,13 +510,22 @@ export function printFeatures(reduced: ReducedPixels): PrintFeatures {
   return { features, border, monochrome: spread < 0.04 };
 }
 
-/** Strength of the correction for a probability of ageing: 0 up to `from`, 1 from `to`, smooth between. */
-export function strengthFor(aged: number, decision: FittedPriors['decision'] = PRIORS.decision): number {
-  const { from, to } = decision;
-  if (aged <= from) return 0;
-  if (aged >= to) return 1;
-  const x = (aged - from) / (to - from);
-  return x * x * (3 - 2 * x);
+/** 0 up to `from`, 1 from `to`, smooth between. */
+function smoothStep(x: number, from: number, to: number): number {
+  if (x <= from) return 0;
+  if (x >= to) return 1;
+  const t = (x - from) / (to - from);
+  return t * t * (3 - 2 * t);
+}
+
+/**
+ * Strength of the correction for a probability of ageing (0 up to `from`, 1 from `to`, smooth
+ * between), weakened where the estimate of k may be far off (`sdK`, the standard deviation of
+ * -ln k): a confident correction of the wrong size does more harm than a weaker one.
+ */
+export function strengthFor(aged: number, decision: FittedPriors['decision'] = PRIORS.decision, sdK = 0): number {
+  const sure = decision.unsureFrom !== undefined && decision.unsureTo !== undefined ? 1 - smoothStep(sdK, decision.unsureFrom, decision.unsureTo) : 1;
+  return smoothStep(aged, decision.from, decision.to) * sure;
 }
 
 /** Stain only ever yellows: the offsets are made to rise from red to green to blue (pooling adjacent violators). */
@@ -555,7 +566,7 @@ function analysisFrom(
   monochrome: boolean,
   decision: FittedPriors['decision'] = PRIORS.decision,
 ): Analysis {
-  const t = strengthFor(est.aged, decision);
+  const t = strengthFor(est.aged, decision, est.sdK);
   const proposed = correctionFromAgeing(est.k, est.s, t);
   // what the proposal does, strength included
   const kEff = est.k.map((k) => 1 / (1 + t * (1 / k - 1))) as Triplet;
@@ -591,6 +602,7 @@ function analysisFrom(
       aged: round(est.aged, 4),
       spreadK: round(est.spreadK, 5),
       spreadS: round(est.spreadS, 5),
+      ...(est.sdK === undefined ? {} : { sdK: round(est.sdK, 5) }),
       borderStain: est.borderStain,
     },
     border,
@@ -610,7 +622,12 @@ export function analysePixels(reduced: ReducedPixels): Analysis {
  * black-and-white print's single image, the stain of a found border, yellowing only. (The fitting
  * script calls it too, with other decision rules, so that it tunes exactly what runs.)
  */
-export function analysisFromModel(estimate: ModelEstimate | null, read: PrintFeatures, decision: FittedPriors['decision'] = PRIORS.decision): Analysis {
+export function analysisFromModel(
+  estimate: ModelEstimate | null,
+  read: PrintFeatures,
+  decision: FittedPriors['decision'] = PRIORS.decision,
+  errorModel: FittedPriors['errorModel'] = PRIORS.errorModel,
+): Analysis {
   const { border, monochrome } = read;
   const model: ModelEstimate = estimate ?? { k: [1, 1, 1], s: [0, 0, 0], aged: 0, spreadK: 1, spreadS: 1 };
   let k = model.k.map((x) => clamp(x, MIN_RETENTION, MAX_RETENTION)) as Triplet;
@@ -626,7 +643,15 @@ export function analysisFromModel(estimate: ModelEstimate | null, read: PrintFea
   }
   s = yellowingOnly(s);
   return analysisFrom(
-    { k, s, aged: model.aged, spreadK: model.spreadK, spreadS: border ? Math.min(model.spreadS, 0.005) : model.spreadS, borderStain: !!border },
+    {
+      k,
+      s,
+      aged: model.aged,
+      spreadK: model.spreadK,
+      spreadS: border ? Math.min(model.spreadS, 0.005) : model.spreadS,
+      sdK: Math.sqrt(estimateVariance(model, { errorModel }).k),
+      borderStain: !!border,
+    },
     paperBase,
     border?.cut ?? NO_BORDER,
     monochrome,
@@ -692,6 +717,7 @@ export function poolAnalyses(analyses: Analysis[]): Analysis[] {
         s: yellowingOnly(s),
         aged: agedPack,
         spreadK: Math.sqrt(1 / (1 / varK(a) + 1 / priorVarK)),
+        sdK: Math.sqrt(1 / (1 / varK(a) + 1 / priorVarK)),
         spreadS: e.borderStain ? e.spreadS : Math.sqrt(1 / (1 / varS(a) + 1 / priorVarS)),
         borderStain: e.borderStain,
       },

@@ -24,8 +24,12 @@ export interface FittedPriors {
   targetMean: number[];
   targetStd: number[];
   members: NetworkWeights[];
-  /** Strength of the correction from the probability of ageing: 0 below `from`, 1 above `to`. */
-  decision: { from: number; to: number };
+  /**
+   * Strength of the correction from the probability of ageing: 0 below `from`, 1 above `to`; and,
+   * where given, from how far the estimate of k may be off (the standard deviation of -ln k that
+   * errorModel gives): full strength up to `unsureFrom`, none from `unsureTo`.
+   */
+  decision: { from: number; to: number; unsureFrom?: number; unsureTo?: number };
   /** Expected CIEDE2000 of a correction: intercept, then per unit of each uncertainty term. */
   /** `perSize`: per unit of the correction's size (mean |ln k| plus the spread of s over the channels). */
   calibration: { intercept: number; perSpreadK: number; perSpreadS: number; perDoubt: number; perSize?: number };
@@ -121,7 +125,7 @@ export function uncertaintyTerms(e: Pick<ModelEstimate, 'spreadK' | 'spreadS' | 
 }
 
 /** Variance of a print's estimated -ln k and s around their truth (for pooling a batch). */
-export function estimateVariance(e: Pick<ModelEstimate, 'spreadK' | 'spreadS'>, priors: FittedPriors = PRIORS): { k: number; s: number } {
+export function estimateVariance(e: Pick<ModelEstimate, 'spreadK' | 'spreadS'>, priors: Pick<FittedPriors, 'errorModel'> = PRIORS): { k: number; s: number } {
   const m = priors.errorModel;
   if (!m) return { k: Math.max(e.spreadK, 0.02) ** 2, s: Math.max(e.spreadS, 0.01) ** 2 };
   return { k: Math.max(m.k[0] + m.k[1] * e.spreadK ** 2, 0.02 ** 2), s: Math.max(m.s[0] + m.s[1] * e.spreadS ** 2, 0.01 ** 2) };

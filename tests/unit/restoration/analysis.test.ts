@@ -52,11 +52,28 @@ describe('analysePixels', () => {
   it('gives every print an expected error and a strength that follows its probability of ageing', () => {
     const a = analysePixels(asReduced(generateScene({ width: 480, height: 320, seed: 7 })));
     expect(a.expectedDeltaE00).toBeGreaterThanOrEqual(0);
-    const t = strengthFor(a.estimate!.aged);
+    expect(a.estimate!.sdK).toBeGreaterThan(0);
+    const t = strengthFor(a.estimate!.aged, PRIORS.decision, a.estimate!.sdK);
     if (t === 0) expect(isIdentity(a.proposed)).toBe(true);
     else expect(a.proposed.strength).toBeCloseTo(t, 3);
     expect(strengthFor(PRIORS.decision.from)).toBe(0);
     expect(strengthFor(PRIORS.decision.to)).toBe(1);
+  });
+
+  it('weakens the correction as the estimate of the dyes grows unsure, down to none', () => {
+    const decision = { from: 0.5, to: 0.8, unsureFrom: 0.15, unsureTo: 0.3 };
+    expect(strengthFor(0.9, decision, 0.1)).toBe(1);
+    expect(strengthFor(0.9, decision, 0.15)).toBe(1);
+    const between = [0.18, 0.22, 0.26].map((sd) => strengthFor(0.9, decision, sd));
+    expect(between[0]).toBeLessThan(1);
+    expect(between[1]).toBeLessThan(between[0]);
+    expect(between[2]).toBeLessThan(between[1]);
+    expect(between[2]).toBeGreaterThan(0);
+    expect(strengthFor(0.9, decision, 0.3)).toBe(0);
+    // without a weakening rule, doubt about k changes nothing
+    expect(strengthFor(0.9, { from: 0.5, to: 0.8 }, 0.5)).toBe(1);
+    // both together: half sure that it aged, and half-way unsure
+    expect(strengthFor(0.65, decision, 0.225)).toBeCloseTo(0.25, 6);
   });
 
   it('copes with a 1x1 and a 3x2 image', () => {
