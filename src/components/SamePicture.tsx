@@ -6,28 +6,12 @@
  */
 import { useCallback, useEffect, useState } from 'react';
 import type { SamePictureChoice } from '../lib/review/same-picture.ts';
+import type { OtherPrint, SamePicturePair } from '../lib/server/same-picture.ts';
 import { api, ApiError } from './api-client.ts';
 import { useReview } from './review/store.ts';
 
-interface Print {
-  id: string;
-  seq: number;
-  batchId: string;
-  batchName: string;
-  originalName: string;
-  setAside: boolean;
-  previewUrl: string;
-  thumbnailUrl: string;
-}
-
-interface Pair {
-  pairId: string;
-  distance: number;
-  outcome: 'open' | 'linked';
-  other: Print;
-  rescanOf: boolean;
-  rescanFound: boolean;
-}
+type Print = OtherPrint;
+type Pair = SamePicturePair;
 
 interface Props {
   itemId: string;
