@@ -72,7 +72,7 @@ export default function SamePicture({ itemId, canDecide }: Props) {
   // an empty marker says the look-up for this print is done (and found nothing)
   if (!open.length && !linked.length && !message) return <span hidden data-same-picture-none={data.thisPrint.id} />;
   return (
-    <section className="mb-4 space-y-3" aria-label="The same picture elsewhere" data-same-picture>
+    <section className="mt-4 space-y-3" aria-label="The same picture elsewhere" data-same-picture>
       {message && <p className={message.kind === 'error' ? 'notice-error' : 'notice'} role="status" data-same-picture-message>{message.text}</p>}
       {open.map((pair) => (
         <div key={pair.pairId} className="notice" data-same-picture-pair={pair.other.id}>

@@ -120,7 +120,8 @@ describe('the smaller things', () => {
     await page.getByRole('button', { name: 'Create token' }).click();
     const token = (await page.locator('[data-new-token]').textContent())!;
     await page.locator('[data-copy-token]').click();
-    await expect(page.locator('[data-copy-token]').textContent()).resolves.toBe('Copied');
+    // the button says so once the clipboard has taken it (an asynchronous write)
+    await page.locator('[data-copy-token]', { hasText: 'Copied' }).waitFor({ timeout: 10_000 });
     await expect(page.evaluate(() => navigator.clipboard.readText())).resolves.toBe(token);
   });
 });

@@ -22,7 +22,10 @@ const analysedIn = (n: number) => [...readLog(n).matchAll(/^analyse ([0-9a-f-]{3
 
 describe('two workers on one batch at once', () => {
   it('analyse every print exactly once between them, and the batch settles', async () => {
-    await until('both workers to be working', async () => [1, 2].every((n) => /working on/.test(readLog(n))), 120_000);
+    // a worker is up once it logs its queues; in the whole suite on two cores that can take minutes
+    await until('both workers to be working', async () => [1, 2].every((n) => /working on/.test(readLog(n))), 240_000, () =>
+      [1, 2].map((n) => `worker ${n}: ${readLog(n).trim().split('\n').slice(-3).join(' | ') || '(no log yet)'}`).join('; '),
+    );
     const editor = stack.client(a.editor.token);
     const batchId = await createBatch(editor, 'Two workers');
     const files = await generatedScans(24, 8100);
@@ -63,5 +66,5 @@ describe('two workers on one batch at once', () => {
       120_000,
     );
     expect(batch.finished_notified_at).toBeTruthy();
-  }, 420_000);
+  }, 540_000);
 });

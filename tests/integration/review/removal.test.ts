@@ -9,6 +9,7 @@ import { queue, stopQueue } from '../../../src/lib/server/queue.ts';
 import { storage } from '../../../src/lib/server/storage.ts';
 import { asToken, makeArchive, type TestArchive } from '../../support/fixtures.ts';
 import type { Client } from '../../support/http.ts';
+import { until } from '../../support/until.ts';
 import { fadedScans, readyBatch } from './helpers.ts';
 
 let archive: TestArchive;
@@ -162,9 +163,10 @@ describe('the purge of what was removed 30 days ago', () => {
     await db().query(`UPDATE items SET deleted_at = now() - interval '31 days' WHERE id IN (:ids)`, { replacements: { ids: [shared.id, alone.id] } });
     await db().query(`UPDATE items SET deleted_at = now() - interval '29 days' WHERE id = :id`, { replacements: { id: recent.id } });
     const boss = await queue();
-    await boss.send(PURGE_REMOVED_QUEUE.name, {});
-    const deadline = Date.now() + 60_000;
-    while ((await Item.count({ where: { id: [shared.id, alone.id] }, paranoid: false })) > 0 && Date.now() < deadline) await new Promise((r) => setTimeout(r, 250));
+    const job = await boss.send(PURGE_REMOVED_QUEUE.name, {});
+    // the whole purge, files included, not only its rows: wait for the job to finish
+    let state = 'created';
+    await until('the purge job to finish', async () => (state = (await boss.getJobById(PURGE_REMOVED_QUEUE.name, job!))?.state ?? 'gone') === 'completed', 60_000, () => state);
 
     expect(await Item.count({ where: { id: [shared.id, alone.id] }, paranoid: false })).toBe(0);
     expect(await storage().exists(aloneKey)).toBe(false);
